@@ -1,0 +1,106 @@
+"""The validated, immutable description of a run, in SI units.
+
+``gridflash._config.load_config`` builds a :class:`RunSpec` from a TOML file; everything
+downstream (grid, runner, store) sees only these frozen records, never a unit string from a config.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ._types import SchedulerKind
+from .thermo import Component, Mixture
+
+__all__ = ["Axis", "CompositionAxis", "FluidSpec", "RunOptions", "RunSpec"]
+
+
+@dataclass(frozen=True)
+class FluidSpec:
+    """Components, EOS and interaction matrix of the fluid."""
+
+    components: tuple[Component, ...]
+    eos: str
+    kij: tuple[tuple[float, ...], ...]
+
+    def mixture(self) -> Mixture:
+        return Mixture(self.components, eos=self.eos, kij=np.array(self.kij))  # type: ignore[arg-type]
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(c.name for c in self.components)
+
+
+@dataclass(frozen=True)
+class Axis:
+    """One grid axis with its coordinate values in SI units."""
+
+    name: str  # dimension name in the store: "pressure" or "temperature"
+    values: tuple[float, ...]
+    units: str  # "Pa" or "K"
+    long_name: str
+
+    def __len__(self) -> int:
+        return len(self.values)
+
+
+@dataclass(frozen=True)
+class CompositionAxis:
+    """The composition axis of the grid.
+
+    ``name`` is ``"mixing_ratio"`` when two streams are mixed (``values`` are the molar fractions
+    of the second stream, 0 = all first stream) and ``"mixture"`` for a simplex over three or more
+    streams or an explicit list of compositions (``values`` are then 0, 1, 2, ...).
+    """
+
+    name: str
+    values: tuple[float, ...]
+    units: str  # "1"
+    long_name: str
+    streams: tuple[str, ...]  # streams mixed; () for an explicit list of compositions
+    stream_fractions: tuple[tuple[float, ...], ...]  # (n_points, n_streams) molar fractions
+    feeds: tuple[tuple[float, ...], ...]  # (n_points, n_components) feed mole fractions
+
+    def __len__(self) -> int:
+        return len(self.values)
+
+    def feed_array(self) -> np.ndarray:
+        return np.array(self.feeds, dtype=float)
+
+
+@dataclass(frozen=True)
+class RunOptions:
+    """How to run: where to write, chunking, workers, scheduler, warm starts."""
+
+    output: Path
+    chunks: tuple[tuple[str, int], ...]  # (dimension name, chunk length) for every grid dimension
+    sweep: str  # dimension swept slab by slab inside a chunk, each slab warm-started
+    workers: int | None = None  # None: all cores
+    scheduler: SchedulerKind = "processes"
+    scheduler_address: str | None = None
+    warm_start: bool = True
+
+
+@dataclass(frozen=True)
+class RunSpec:
+    """A whole validated run description."""
+
+    fluid: FluidSpec
+    streams: tuple[tuple[str, tuple[float, ...]], ...]  # (name, mole fractions per component)
+    pressure: Axis
+    temperature: Axis
+    composition: CompositionAxis
+    run: RunOptions
+    config_text: str = field(repr=False)
+    config_hash: str = ""
+
+    @property
+    def dims(self) -> tuple[str, str, str]:
+        """Grid dimensions in store order."""
+        return ("pressure", "temperature", self.composition.name)
+
+    @property
+    def shape(self) -> tuple[int, int, int]:
+        return (len(self.pressure), len(self.temperature), len(self.composition))
