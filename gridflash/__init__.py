@@ -3,16 +3,19 @@
 from __future__ import annotations
 
 from ._errors import ConfigError, GridflashError, InputError, StoreError
-from .thermo import Component, Mixture
+from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 
 __version__ = "0.1.0"
 
 __all__ = [
     "Component",
     "ConfigError",
+    "FlashResult",
+    "FlashStatus",
     "GridflashError",
     "InputError",
     "Mixture",
     "StoreError",
+    "flash",
     "__version__",
 ]

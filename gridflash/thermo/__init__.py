@@ -3,6 +3,47 @@
 from __future__ import annotations
 
 from ._components import Component, builtin_component, builtin_names
+from ._cubic import CubicModel, cubic_roots, phase_state, reduced_parameters
+from ._flash import flash
 from ._mixture import EOS_NAMES, Mixture
+from ._properties import (
+    lbc_viscosity,
+    li_pseudocritical_temperature,
+    phase_properties,
+    stiel_thodos_viscosity,
+    wilson_ln_k,
+)
+from ._rachford_rice import RachfordRiceResult, RachfordRiceStatus, rachford_rice
+from ._result import FlashResult, FlashStatus, PhaseLabel, PhaseProperties
+from ._saturation import pure_vapour_pressure
+from ._stability import StabilityResult, stability_test
+from ._volume_shift import peneloux_shift
 
-__all__ = ["EOS_NAMES", "Component", "Mixture", "builtin_component", "builtin_names"]
+__all__ = [
+    "EOS_NAMES",
+    "Component",
+    "CubicModel",
+    "FlashResult",
+    "FlashStatus",
+    "Mixture",
+    "PhaseLabel",
+    "PhaseProperties",
+    "RachfordRiceResult",
+    "RachfordRiceStatus",
+    "StabilityResult",
+    "builtin_component",
+    "builtin_names",
+    "cubic_roots",
+    "flash",
+    "lbc_viscosity",
+    "li_pseudocritical_temperature",
+    "peneloux_shift",
+    "phase_properties",
+    "phase_state",
+    "pure_vapour_pressure",
+    "rachford_rice",
+    "reduced_parameters",
+    "stability_test",
+    "stiel_thodos_viscosity",
+    "wilson_ln_k",
+]

@@ -94,6 +94,10 @@ class CubicModel:
         The EOS's volume-function constants.
     tc : ndarray, shape (nc,)
         Critical temperatures, K.
+    pc : ndarray, shape (nc,)
+        Critical pressures, Pa.
+    omega : ndarray, shape (nc,)
+        Acentric factors.
     ac : ndarray, shape (nc,)
         ``Omega_a R^2 Tc^2 / Pc``, Pa m6/mol2.
     m : ndarray, shape (nc,)
@@ -108,6 +112,8 @@ class CubicModel:
     delta1: float
     delta2: float
     tc: FloatArray
+    pc: FloatArray
+    omega: FloatArray
     ac: FloatArray
     m: FloatArray
     b: FloatArray

@@ -127,6 +127,8 @@ class Mixture:
             delta1=d1,
             delta2=d2,
             tc=self.tc,
+            pc=self.pc,
+            omega=self.omega,
             ac=omega_a * (R * self.tc) ** 2 / self.pc,
             m=kappa(self.eos, self.omega),  # type: ignore[arg-type]
             b=omega_b * R * self.tc / self.pc,
