@@ -1,0 +1,1101 @@
+"""Read a run description (TOML) into a validated, immutable :class:`~gridflash._spec.RunSpec`.
+
+The key reference is ``docs/config.md``; the annotated examples are in ``configs/``. In short::
+
+    [fluid]        eos, components (built-in names or inline pseudo-component tables), kij
+    [streams.NAME] mole_fractions (table by component, or list in component order), normalise
+    [pressure]     unit, and either start/stop/count or values
+    [temperature]  unit, and either start/stop/count or values
+    [composition]  kind = "mixing" | "simplex" | "list", streams, and the kind's own keys
+    [run]          output, chunks, workers, scheduler, scheduler_address, sweep, warm_start
+
+Every problem raises :class:`~gridflash._errors.ConfigError` with a one-line message that starts
+with the config's source, names the full dotted key and the bad value (``!r``), and says what is
+allowed. Parsing writes nothing anywhere.
+
+Fingerprint
+-----------
+``RunSpec.config_hash`` is the SHA-256 of :func:`canonical_json` of :func:`canonical_config`: the
+validated document with defaults filled in, unit spellings and component names made canonical,
+numbers as floats (integers for counts), stream fractions listed for every component, pair keys of
+``kij`` in component order and the resolved chunk sizes. Comments, whitespace, key order, ``10`` vs
+``10.0``, ``"°C"`` vs ``"degC"`` and list vs table forms of the same data do not change it. Keys
+that only say *how* or *where* to run and cannot change a stored value -- ``run.output``,
+``run.workers``, ``run.scheduler``, ``run.scheduler_address`` -- and the ``source`` label of
+pseudo-components are left out, so a run may be resumed with more workers or on a cluster.
+:func:`changed_keys` lists the dotted keys that differ between two canonical documents.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import json
+import math
+import os
+import re
+import tomllib
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any, NoReturn
+
+import numpy as np
+
+from ._errors import ConfigError, InputError
+from ._grid import list_axis, mixing_axis, simplex_axis, simplex_size
+from ._spec import Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec
+from ._units import (
+    PRESSURE_UNITS,
+    TEMPERATURE_UNITS,
+    molar_volume_to_si,
+    molar_volume_unit,
+    pressure_to_pa,
+    pressure_unit,
+    temperature_to_kelvin,
+    temperature_unit,
+)
+from .thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_names
+
+__all__ = [
+    "MAX_AXIS_POINTS",
+    "MAX_COMPOSITION_POINTS",
+    "SUM_TOLERANCE",
+    "canonical_config",
+    "canonical_json",
+    "changed_keys",
+    "load_config",
+    "parse_config",
+]
+
+#: Stream fractions must sum to 1 within this, unless the stream says ``normalise = true``.
+SUM_TOLERANCE = 1e-6
+#: Largest number of points on the pressure or temperature axis.
+MAX_AXIS_POINTS = 1_000_000
+#: Largest number of points on the composition axis (each point stores a feed composition).
+MAX_COMPOSITION_POINTS = 100_000
+#: Default chunks are shrunk (halving the largest dimension not given in ``run.chunks``, the
+#: sweep dimension last) until a chunk holds at most this many cells.
+DEFAULT_CHUNK_CELLS = 65_536
+#: Upper bound accepted for ``run.workers``.
+_MAX_WORKERS = 100_000
+
+_TOP_KEYS = ("fluid", "streams", "pressure", "temperature", "composition", "run")
+_FLUID_KEYS = ("eos", "components", "kij")
+_PSEUDO_REQUIRED = ("name", "tc", "tc_unit", "pc", "pc_unit", "omega", "mw")
+_PSEUDO_KEYS = (*_PSEUDO_REQUIRED, "vc", "vc_unit", "zra", "volume_shift", "source")
+_STREAM_KEYS = ("mole_fractions", "normalise")
+_AXIS_KEYS = ("unit", "start", "stop", "count", "values")
+_RANGE_KEYS = ("start", "stop", "count")
+_COMPOSITION_KEYS: dict[str, tuple[str, ...]] = {
+    "mixing": ("kind", "streams", "start", "stop", "count", "values"),
+    "simplex": ("kind", "streams", "divisions"),
+    "list": ("kind", "streams", "mole_fractions", "normalise"),
+}
+_RUN_KEYS = ("output", "chunks", "workers", "scheduler", "scheduler_address", "sweep", "warm_start")
+#: Run keys left out of the canonical document (and so of the hash): they cannot change results.
+EXECUTION_KEYS = ("output", "workers", "scheduler", "scheduler_address")
+_SCHEDULERS = ("threads", "processes")
+_AXIS_CONFIG_NAMES = ("pressure", "temperature", "composition")
+
+_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
+_TOML_POSITION = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
+_TOML_END = re.compile(r"\s*\(at end of document\)\s*$")
+
+
+# --------------------------------------------------------------------------------------------
+# Public functions
+# --------------------------------------------------------------------------------------------
+
+
+def load_config(path: str | os.PathLike[str]) -> RunSpec:
+    """Read and validate a TOML run description.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The config file. A relative ``run.output`` is taken relative to its folder.
+
+    Returns
+    -------
+    RunSpec
+        Frozen, in SI units, with ``config_text`` the file's text and ``config_hash`` its
+        fingerprint (see the module notes).
+
+    Raises
+    ------
+    ConfigError
+        If the file cannot be read or the config is invalid; the one-line message starts with the
+        path and names the key, the value and what is allowed.
+    """
+    file = Path(path)
+    try:
+        raw = file.read_bytes()
+    except OSError as exc:
+        raise ConfigError(
+            f"cannot read config file {str(file)!r}: {exc.strerror or exc}; give the path of an "
+            "existing TOML file"
+        ) from None
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise ConfigError(
+            f"{file}: the config is not UTF-8 text (bad byte at offset {exc.start}); TOML files "
+            "must be saved as UTF-8"
+        ) from None
+    return parse_config(text, source=str(file), base_dir=file.parent.absolute())
+
+
+def parse_config(
+    text: str, *, source: str = "<string>", base_dir: str | os.PathLike[str] | None = None
+) -> RunSpec:
+    """Validate the text of a TOML run description.
+
+    Parameters
+    ----------
+    text : str
+        The TOML text.
+    source : str, optional
+        Where the text came from, put at the start of error messages.
+    base_dir : path-like, optional
+        Folder a relative ``run.output`` is relative to; the current working directory if None.
+
+    Returns
+    -------
+    RunSpec
+
+    Raises
+    ------
+    ConfigError
+        On malformed TOML (the message gives the line) or any invalid key or value (the message
+        names the dotted key, the value and what is allowed).
+
+    Examples
+    --------
+    >>> spec = parse_config(Path("configs/small_test.toml").read_text())  # doctest: +SKIP
+    >>> spec.shape  # doctest: +SKIP
+    (5, 3, 6)
+    """
+    spec, _ = _parse_with_source(text, source, base_dir)
+    return spec
+
+
+def canonical_config(text: str, *, source: str = "<string>") -> dict[str, Any]:
+    """The canonical document of a config text, the basis of its ``config_hash``.
+
+    The text is fully validated first. See the module notes for what the canonical form keeps.
+    The resume check compares ``canonical_config(old_text)`` with ``canonical_config(new_text)``
+    through :func:`changed_keys`.
+
+    Raises
+    ------
+    ConfigError
+        If the text is not a valid config.
+    """
+    _, canonical = _parse_with_source(text, source, None)
+    return canonical
+
+
+def canonical_json(canonical: Mapping[str, Any]) -> str:
+    """Compact JSON with sorted keys of a canonical document; ``config_hash`` is its SHA-256."""
+    return json.dumps(
+        canonical, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False
+    )
+
+
+def changed_keys(old_canonical: Mapping[str, Any], new_canonical: Mapping[str, Any]) -> list[str]:
+    """Dotted keys whose values differ between two canonical documents.
+
+    Parameters
+    ----------
+    old_canonical, new_canonical : mapping
+        Documents from :func:`canonical_config` (or ``json.loads`` of :func:`canonical_json`).
+
+    Returns
+    -------
+    list of str
+        Sorted dotted keys, e.g. ``["pressure.count", "streams.gas.mole_fractions.CO2"]``; a key
+        present in only one document is listed; lists of different lengths are listed as a whole,
+        lists of equal length element by element (``"pressure.values[3]"``). Empty when the
+        documents are equal.
+    """
+    out: list[str] = []
+    _diff(old_canonical, new_canonical, "", out)
+    return sorted(out)
+
+
+# --------------------------------------------------------------------------------------------
+# Small helpers: keys, messages, type checks
+# --------------------------------------------------------------------------------------------
+
+
+def _join(path: str, key: str) -> str:
+    """Dotted TOML key of ``key`` inside ``path``, quoting keys that are not bare TOML keys."""
+    part = key if _BARE_KEY.match(key) else json.dumps(key)
+    return f"{path}.{part}" if path else part
+
+
+def _show(value: object) -> str:
+    text = repr(value)
+    return text if len(text) <= 80 else text[:77] + "..."
+
+
+def _one_line(message: str) -> str:
+    return " ".join(part.strip() for part in message.splitlines() if part.strip())
+
+
+def _bad(key: str, value: object, why: str) -> NoReturn:
+    raise ConfigError(f"{key} = {_show(value)} {why}")
+
+
+def _missing(key: str, what: str) -> NoReturn:
+    raise ConfigError(f"missing required key {key}: {what}")
+
+
+def _check_keys(table: Mapping[str, Any], path: str, allowed: tuple[str, ...]) -> None:
+    for key in table:
+        if key not in allowed:
+            close = difflib.get_close_matches(str(key), allowed, n=1, cutoff=0.6)
+            hint = f" (did you mean {_join(path, close[0])}?)" if close else ""
+            where = f"[{path}]" if path else "the top level"
+            raise ConfigError(
+                f"unknown key {_join(path, str(key))}{hint}; allowed keys in {where}: "
+                f"{', '.join(allowed)}"
+            )
+
+
+def _is_number(value: object) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _float(value: object, key: str, what: str = "a number") -> float:
+    if not _is_number(value):
+        _bad(key, value, f"is not a number; expected {what}")
+    try:
+        out = float(value)  # type: ignore[arg-type]
+    except OverflowError:
+        out = math.inf
+    if not math.isfinite(out):
+        _bad(key, value, f"is not finite; expected {what}")
+    return out
+
+
+def _int(value: object, key: str, low: int, high: int, what: str) -> int:
+    if isinstance(value, bool) or not isinstance(value, int):
+        _bad(key, value, f"is not an integer; expected {what} ({low} to {high})")
+    if not low <= value <= high:
+        _bad(key, value, f"is out of range; expected {what} ({low} to {high})")
+    return int(value)
+
+
+def _str(value: object, key: str, what: str) -> str:
+    if not isinstance(value, str) or not value.strip():
+        _bad(key, value, f"is not a non-empty string; expected {what}")
+    return value
+
+
+def _choice(value: object, key: str, choices: tuple[str, ...], *, fold_case: bool = False) -> str:
+    if isinstance(value, str):
+        if value in choices:
+            return value
+        if fold_case:
+            for choice in choices:
+                if choice.lower() == value.strip().lower():
+                    return choice
+    close = (
+        difflib.get_close_matches(value, choices, n=1, cutoff=0.5)
+        if isinstance(value, str)
+        else []
+    )
+    hint = f" (did you mean {close[0]!r}?)" if close else ""
+    _bad(key, value, f"is not allowed{hint}; choose one of {', '.join(map(repr, choices))}")
+
+
+def _bool(value: object, key: str) -> bool:
+    if not isinstance(value, bool):
+        _bad(key, value, "is not a boolean; write true or false (no quotes)")
+    return value
+
+
+def _table(value: object, key: str, what: str) -> dict[str, Any]:
+    if not isinstance(value, dict):
+        _bad(key, value, f"is not a table; expected {what}")
+    return value
+
+
+def _list(value: object, key: str, what: str) -> list[Any]:
+    if not isinstance(value, list):
+        _bad(key, value, f"is not a list; expected {what}")
+    if not value:
+        _bad(key, value, f"is empty; expected {what}")
+    return value
+
+
+def _diff(old: object, new: object, path: str, out: list[str]) -> None:
+    if isinstance(old, Mapping) and isinstance(new, Mapping):
+        for key in sorted(set(old) | set(new), key=str):
+            child = _join(path, str(key))
+            if key not in old or key not in new:
+                out.append(child)
+            else:
+                _diff(old[key], new[key], child, out)
+    elif isinstance(old, list) and isinstance(new, list) and len(old) == len(new):
+        for i, (a, b) in enumerate(zip(old, new, strict=True)):
+            _diff(a, b, f"{path}[{i}]", out)
+    elif type(old) is not type(new) or old != new:
+        out.append(path or "<document>")
+
+
+# --------------------------------------------------------------------------------------------
+# The parser
+# --------------------------------------------------------------------------------------------
+
+
+def _parse_with_source(
+    text: object, source: str, base_dir: str | os.PathLike[str] | None
+) -> tuple[RunSpec, dict[str, Any]]:
+    try:
+        return _Parser(text, base_dir).run()
+    except ConfigError as exc:
+        prefix = f"{source}: " if source else ""
+        raise ConfigError(_one_line(f"{prefix}{exc}")) from None
+
+
+def _load_toml(text: object) -> dict[str, Any]:
+    if not isinstance(text, str):
+        raise ConfigError(f"config text must be a str, got {type(text).__name__}")
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        message = str(exc)
+        match = _TOML_POSITION.search(message)
+        if match:
+            where = f"line {match.group(1)}, column {match.group(2)}"
+            what = message[: match.start()]
+        else:
+            end = _TOML_END.search(message)
+            what = message[: end.start()] if end else message
+            where = f"line {max(1, len(text.splitlines()))} (end of document)"
+        raise ConfigError(
+            f"malformed TOML at {where}: {what}; see https://toml.io for the syntax"
+        ) from None
+    except RecursionError:
+        raise ConfigError("malformed TOML at line 1: arrays or tables nested too deeply") from None
+
+
+class _Parser:
+    """One pass over a parsed TOML document, building the RunSpec and its canonical document."""
+
+    def __init__(self, text: object, base_dir: str | os.PathLike[str] | None) -> None:
+        self.text = text
+        self.base_dir = Path(base_dir) if base_dir is not None else None
+        self.canonical: dict[str, Any] = {}
+
+    # -- top level --------------------------------------------------------------------------
+
+    def run(self) -> tuple[RunSpec, dict[str, Any]]:
+        doc = _load_toml(self.text)
+        _check_keys(doc, "", _TOP_KEYS)
+        for key in _TOP_KEYS:
+            if key not in doc:
+                _missing(key, f"add a [{key}] table (see docs/config.md)")
+            _table(doc[key], key, f"a [{key}] table")
+        fluid = self._fluid(doc["fluid"])
+        streams = self._streams(doc["streams"])
+        pressure = self._pressure(doc["pressure"])
+        temperature = self._temperature(doc["temperature"])
+        composition = self._composition(doc["composition"], streams)
+        options = self._run(doc["run"], pressure, temperature, composition)
+        canonical = self.canonical
+        text = canonical_json(canonical)
+        spec = RunSpec(
+            fluid=fluid,
+            streams=tuple((name, tuple(z.tolist())) for name, z in streams.items()),
+            pressure=pressure,
+            temperature=temperature,
+            composition=composition,
+            run=options,
+            config_text=str(self.text),
+            config_hash=hashlib.sha256(text.encode("ascii")).hexdigest(),
+        )
+        return spec, json.loads(text)
+
+    # -- fluid -------------------------------------------------------------------------------
+
+    def _fluid(self, table: dict[str, Any]) -> FluidSpec:
+        _check_keys(table, "fluid", _FLUID_KEYS)
+        eos = _choice(table.get("eos", "PR78"), "fluid.eos", EOS_NAMES, fold_case=True)
+        if "components" not in table:
+            _missing(
+                "fluid.components",
+                "list the components, e.g. components = [\"C1\", \"nC4\"] (see docs/config.md)",
+            )
+        entries = _list(
+            table["components"],
+            "fluid.components",
+            "a list of built-in component names and/or pseudo-component tables",
+        )
+        components: list[Component] = []
+        canon_components: list[Any] = []
+        for i, entry in enumerate(entries):
+            key = f"fluid.components[{i}]"
+            if isinstance(entry, str):
+                comp = self._builtin(entry, key)
+                canon_components.append(comp.name)
+            elif isinstance(entry, dict):
+                comp, canon = self._pseudo(entry, key)
+                canon_components.append(canon)
+            else:
+                _bad(
+                    key,
+                    entry,
+                    "is neither a built-in component name nor a pseudo-component table "
+                    "{ name = ..., tc = ..., tc_unit = ..., pc = ..., pc_unit = ..., omega = ..., "
+                    "mw = ... }",
+                )
+            for j, other in enumerate(components):
+                if other.name.lower() == comp.name.lower():
+                    _bad(
+                        key,
+                        entry if isinstance(entry, str) else comp.name,
+                        f"is the same component as fluid.components[{j}]; list each component "
+                        "once",
+                    )
+            components.append(comp)
+        self.components = tuple(components)
+        self.names = tuple(c.name for c in components)
+        self.written = tuple(e if isinstance(e, str) else c.name for e, c in zip(entries, components, strict=True))
+        kij, canon_kij = self._kij(table.get("kij"))
+        try:
+            Mixture(self.components, eos=eos, kij=kij)  # type: ignore[arg-type]
+        except InputError as exc:
+            raise ConfigError(f"fluid: {exc}") from None
+        self.canonical["fluid"] = {"eos": eos, "components": canon_components, "kij": canon_kij}
+        return FluidSpec(
+            components=self.components, eos=eos, kij=tuple(map(tuple, kij.tolist()))
+        )
+
+    def _builtin(self, name: str, key: str) -> Component:
+        try:
+            return builtin_component(name)
+        except InputError:
+            pass
+        known = list(builtin_names())
+        close = difflib.get_close_matches(name, known, n=2, cutoff=0.5)
+        lowered = [n for n in known if n.lower() == name.strip().lower()]
+        close = lowered or close
+        hint = f" (did you mean {', '.join(map(repr, close))}?)" if close else ""
+        _bad(
+            key,
+            name,
+            f"is not a built-in component{hint}; built-in: {', '.join(known)}; define others "
+            "as a table { name = ..., tc = ..., tc_unit = ..., pc = ..., pc_unit = ..., "
+            "omega = ..., mw = ... }",
+        )
+
+    def _pseudo(self, entry: dict[str, Any], key: str) -> tuple[Component, dict[str, Any]]:
+        _check_keys(entry, key, _PSEUDO_KEYS)
+        for field in _PSEUDO_REQUIRED:
+            if field not in entry:
+                _missing(
+                    f"{key}.{field}",
+                    "a pseudo-component needs name, tc, tc_unit, pc, pc_unit, omega and mw "
+                    "(mw in g/mol)",
+                )
+        name = _str(entry["name"], f"{key}.name", "the pseudo-component's name")
+        tc_unit = temperature_unit(entry["tc_unit"], key=f"{key}.tc_unit")
+        tc = _float(entry["tc"], f"{key}.tc", f"a critical temperature in {tc_unit}")
+        tc_k = temperature_to_kelvin(tc, tc_unit, key=f"{key}.tc")
+        pc_unit = pressure_unit(entry["pc_unit"], key=f"{key}.pc_unit")
+        pc = _float(entry["pc"], f"{key}.pc", f"a critical pressure in {pc_unit}")
+        pc_pa = pressure_to_pa(pc, pc_unit, key=f"{key}.pc")
+        omega = _float(entry["omega"], f"{key}.omega", "an acentric factor between -1 and 3")
+        mw = _float(entry["mw"], f"{key}.mw", "a molar mass in g/mol above 0")
+        if mw <= 0:
+            _bad(f"{key}.mw", entry["mw"], "must be above 0; give the molar mass in g/mol")
+        canon: dict[str, Any] = {
+            "name": name,
+            "tc": tc,
+            "tc_unit": tc_unit,
+            "pc": pc,
+            "pc_unit": pc_unit,
+            "omega": omega,
+            "mw": mw,
+        }
+        optional: dict[str, Any] = {}
+        if "vc" in entry or "vc_unit" in entry:
+            if "vc" not in entry:
+                _missing(f"{key}.vc", f"{key}.vc_unit is given without the critical volume vc")
+            if "vc_unit" not in entry:
+                _missing(
+                    f"{key}.vc_unit",
+                    "give the unit of vc: m3/mol, cm3/mol or L/mol",
+                )
+            vc_unit = molar_volume_unit(entry["vc_unit"], key=f"{key}.vc_unit")
+            vc = _float(entry["vc"], f"{key}.vc", f"a critical volume in {vc_unit}")
+            optional["vc"] = molar_volume_to_si(vc, vc_unit, key=f"{key}.vc")
+            canon.update(vc=vc, vc_unit=vc_unit)
+        for field in ("zra", "volume_shift"):
+            if field in entry:
+                optional[field] = canon[field] = _float(entry[field], f"{key}.{field}")
+        if "source" in entry:
+            optional["source"] = _str(
+                entry["source"], f"{key}.source", "a note saying where the constants come from"
+            )
+        try:
+            comp = Component(name, tc=tc_k, pc=pc_pa, omega=omega, mw=mw, **optional)
+        except InputError as exc:
+            field = next(
+                (f for f in ("omega", "vc", "zra", "volume_shift", "pc", "tc", "mw")
+                 if f"{f}=" in str(exc)),
+                None,
+            )
+            where = f"{key}.{field}" if field else key
+            raise ConfigError(f"{where}: {exc}") from None
+        return comp, canon
+
+    def _component_index(self, name: str) -> int | None:
+        if name in self.names:
+            return self.names.index(name)
+        lowered = name.strip().lower()
+        for i, (canon, written) in enumerate(zip(self.names, self.written, strict=True)):
+            if lowered in (canon.lower(), written.lower()):
+                return i
+        try:
+            canonical = builtin_component(name).name
+        except InputError:
+            return None
+        return self.names.index(canonical) if canonical in self.names else None
+
+    def _unknown_component(self, key: str, name: object, context: str) -> NoReturn:
+        close = (
+            difflib.get_close_matches(name, self.names, n=1, cutoff=0.5)
+            if isinstance(name, str)
+            else []
+        )
+        hint = f" (did you mean {close[0]!r}?)" if close else ""
+        raise ConfigError(
+            f"{key}: {name!r} is not a component of fluid.components{hint}; {context} must be "
+            f"one of {', '.join(self.names)}"
+        )
+
+    def _kij(self, value: object) -> tuple[np.ndarray, dict[str, float]]:
+        nc = len(self.names)
+        matrix = np.zeros((nc, nc))
+        seen: dict[tuple[int, int], str] = {}
+        pairs: list[tuple[str, object, object, object]] = []  # key, name_a, name_b, value
+        if value is None:
+            pass
+        elif isinstance(value, dict):
+            for pair, v in value.items():
+                key = _join("fluid.kij", pair)
+                pairs.append((key, *self._split_pair(pair, key), v))
+        elif isinstance(value, list):
+            for i, item in enumerate(value):
+                key = f"fluid.kij[{i}]"
+                if (
+                    not isinstance(item, list)
+                    or len(item) != 3
+                    or not isinstance(item[0], str)
+                    or not isinstance(item[1], str)
+                ):
+                    _bad(key, item, 'is not a pair entry; write ["CO2", "C1", 0.12]')
+                pairs.append((key, item[0], item[1], item[2]))
+        else:
+            _bad(
+                "fluid.kij",
+                value,
+                'is neither a table of pairs ("CO2-C1" = 0.12) nor a list of pairs '
+                '([["CO2", "C1", 0.12]])',
+            )
+        for key, a, b, v in pairs:
+            idx = []
+            for name in (a, b):
+                i = self._component_index(name) if isinstance(name, str) else None
+                if i is None:
+                    self._unknown_component(key, name, "each component of a kij pair")
+                idx.append(i)
+            i, j = idx
+            if i == j:
+                _bad(key, v, f"pairs {self.names[i]!r} with itself; kij of a component with "
+                     "itself is always 0, give pairs of two different components")
+            k = _float(v, key, "a binary interaction parameter with |kij| < 1")
+            if abs(k) >= 1.0:
+                _bad(key, v, "is out of range; binary interaction parameters need |kij| < 1")
+            pair_id = (min(i, j), max(i, j))
+            if pair_id in seen:
+                _bad(key, v, f"gives the pair again (already given by {seen[pair_id]}); give "
+                     "each pair once")
+            seen[pair_id] = key
+            matrix[i, j] = matrix[j, i] = k
+        canon = {
+            f"{self.names[i]}-{self.names[j]}": float(matrix[i, j]) for (i, j) in sorted(seen)
+        }
+        return matrix, canon
+
+    def _split_pair(self, pair: str, key: str) -> tuple[str, str]:
+        found: set[tuple[int, int]] = set()
+        split: tuple[str, str] | None = None
+        for m in re.finditer("-", pair):
+            a, b = pair[: m.start()], pair[m.end():]
+            ia, ib = self._component_index(a), self._component_index(b)
+            if ia is not None and ib is not None:
+                found.add((ia, ib))
+                split = (a, b)
+        if not found:
+            raise ConfigError(
+                f"{key}: cannot read {pair!r} as two components of fluid.components joined by "
+                f"'-' (components: {', '.join(self.names)}); write \"CO2-C1\" = 0.12, or use the "
+                'list form kij = [["CO2", "C1", 0.12]]'
+            )
+        if len(found) > 1:
+            raise ConfigError(
+                f"{key}: {pair!r} can be split into components in more than one way; use the "
+                'list form kij = [["A", "B", value]]'
+            )
+        assert split is not None
+        return split
+
+    # -- streams -----------------------------------------------------------------------------
+
+    def _streams(self, table: dict[str, Any]) -> dict[str, np.ndarray]:
+        if not table:
+            _missing(
+                "streams.NAME",
+                "define at least one stream, e.g. [streams.oil] mole_fractions = { C1 = 0.5, "
+                "nC10 = 0.5 }",
+            )
+        out: dict[str, np.ndarray] = {}
+        canon: dict[str, Any] = {}
+        for name, stream in table.items():
+            path = _join("streams", name)
+            if not name.strip():
+                _bad(path, name, "is not a usable stream name; name streams with a word")
+            _table(stream, path, "a stream table with mole_fractions (and optionally normalise)")
+            _check_keys(stream, path, _STREAM_KEYS)
+            normalise = _bool(stream.get("normalise", False), f"{path}.normalise")
+            if "mole_fractions" not in stream:
+                _missing(
+                    f"{path}.mole_fractions",
+                    "give the stream's mole fractions, e.g. mole_fractions = { C1 = 0.9, C2 = 0.1 }",
+                )
+            z, fractions = self._fractions(
+                stream["mole_fractions"], f"{path}.mole_fractions", normalise, f"{path}.normalise"
+            )
+            out[name] = z
+            canon[name] = {"mole_fractions": fractions, "normalise": normalise}
+        self.canonical["streams"] = canon
+        return out
+
+    def _fractions(
+        self, value: object, key: str, normalise: bool, normalise_key: str
+    ) -> tuple[np.ndarray, dict[str, float]]:
+        nc = len(self.names)
+        z = np.zeros(nc)
+        given: list[str | None] = [None] * nc
+        upper = "a mole fraction >= 0" if normalise else "a mole fraction between 0 and 1"
+        if isinstance(value, dict):
+            for comp, v in value.items():
+                ckey = _join(key, comp)
+                i = self._component_index(comp)
+                if i is None:
+                    self._unknown_component(ckey, comp, "each key of mole_fractions")
+                if given[i] is not None:
+                    _bad(ckey, v, f"is the same component as {given[i]}; give each component once")
+                given[i] = ckey
+                z[i] = self._fraction_value(v, ckey, normalise, upper)
+        elif isinstance(value, list):
+            if len(value) != nc:
+                _bad(
+                    key,
+                    value,
+                    f"has {len(value)} entries but there are {nc} components "
+                    f"({', '.join(self.names)}); give one fraction per component, in order, or a "
+                    "table by component name",
+                )
+            for i, v in enumerate(value):
+                z[i] = self._fraction_value(v, f"{key}[{i}]", normalise, upper)
+        else:
+            _bad(
+                key,
+                value,
+                "is not a table of mole fractions by component (e.g. { C1 = 0.9, C2 = 0.1 }) "
+                "nor a list with one fraction per component",
+            )
+        total = float(z.sum())
+        if normalise:
+            if total <= 0.0:
+                _bad(key, value, "has no positive fraction; at least one component must be > 0")
+        elif abs(total - 1.0) > SUM_TOLERANCE:
+            _bad(
+                key,
+                value,
+                f"sums to {total!r}, not 1 within {SUM_TOLERANCE:g}; correct the fractions or "
+                f"set {normalise_key} = true to rescale them",
+            )
+        fractions = {name: float(v) for name, v in zip(self.names, z, strict=True)}
+        return z / total, fractions
+
+    @staticmethod
+    def _fraction_value(v: object, key: str, normalise: bool, what: str) -> float:
+        x = _float(v, key, what)
+        if x < 0.0 or (not normalise and x > 1.0):
+            _bad(key, v, f"is out of range; expected {what}")
+        return x
+
+    # -- axes --------------------------------------------------------------------------------
+
+    def _axis_numbers(
+        self,
+        table: dict[str, Any],
+        path: str,
+        what: str,
+        check: Any,
+    ) -> tuple[np.ndarray, dict[str, Any]]:
+        """Values of an axis in the config's unit, from ``values`` or ``start/stop/count``.
+
+        ``check(value, key)`` validates one number (and its unit conversion) and raises with the
+        key named.
+        """
+        if "values" in table:
+            extra = [k for k in _RANGE_KEYS if k in table]
+            if extra:
+                raise ConfigError(
+                    f"{path}.values cannot be combined with {_join(path, extra[0])}; give either "
+                    "values = [...] or start, stop and count"
+                )
+            items = _list(table["values"], f"{path}.values", f"a list of {what}")
+            if len(items) > MAX_AXIS_POINTS:
+                _bad(f"{path}.values", items, f"has more than {MAX_AXIS_POINTS} values")
+            numbers = [_float(v, f"{path}.values[{i}]", what) for i, v in enumerate(items)]
+            for i, v in enumerate(numbers):
+                check(v, f"{path}.values[{i}]")
+            for i in range(1, len(numbers)):
+                if numbers[i] <= numbers[i - 1]:
+                    _bad(
+                        f"{path}.values[{i}]",
+                        items[i],
+                        f"is not greater than {path}.values[{i - 1}] = {items[i - 1]!r}; axis "
+                        "values must be strictly increasing (no repeats, not descending)",
+                    )
+            return np.array(numbers), {"values": numbers}
+        for k in _RANGE_KEYS:
+            if k not in table:
+                _missing(
+                    _join(path, k),
+                    f"give {path}.start, {path}.stop and {path}.count, or {path}.values = [...]",
+                )
+        start = _float(table["start"], f"{path}.start", what)
+        stop = _float(table["stop"], f"{path}.stop", what)
+        count = _int(table["count"], f"{path}.count", 1, MAX_AXIS_POINTS, "a number of points")
+        check(start, f"{path}.start")
+        check(stop, f"{path}.stop")
+        if count == 1:
+            if start != stop:
+                _bad(
+                    f"{path}.stop",
+                    table["stop"],
+                    f"differs from {path}.start = {table['start']!r} but {path}.count = 1; for a "
+                    f"single value set stop equal to start, or use {path}.values = [x]",
+                )
+            numbers = np.array([start])
+        else:
+            if stop <= start:
+                _bad(
+                    f"{path}.stop",
+                    table["stop"],
+                    f"is not greater than {path}.start = {table['start']!r}; axes run in "
+                    "increasing order (swap start and stop)",
+                )
+            # (start (n-1-i) + stop i) / (n-1): exact whenever the numerator is, so decimal
+            # inputs give the decimal points users expect (0.6, not 0.6000000000000001).
+            i = np.arange(count, dtype=float)
+            numbers = (start * (count - 1 - i) + stop * i) / (count - 1)
+            numbers[0], numbers[-1] = start, stop
+            if not np.all(np.diff(numbers) > 0):
+                _bad(
+                    f"{path}.count",
+                    count,
+                    f"is too large for the span {start!r}..{stop!r}: the points would not be "
+                    "distinct numbers",
+                )
+        return numbers, {"start": start, "stop": stop, "count": count}
+
+    def _pressure(self, table: dict[str, Any]) -> Axis:
+        _check_keys(table, "pressure", _AXIS_KEYS)
+        if "unit" not in table:
+            _missing("pressure.unit", f"give the unit of the pressures: {', '.join(PRESSURE_UNITS)}")
+        unit = pressure_unit(table["unit"], key="pressure.unit")
+
+        def check(v: float, key: str) -> None:
+            pressure_to_pa(v, unit, key=key)
+
+        numbers, canon = self._axis_numbers(
+            table, "pressure", f"an absolute pressure in {unit}", check
+        )
+        values = pressure_to_pa(numbers, unit, key="pressure.values")
+        self.canonical["pressure"] = {"unit": unit, **canon}
+        return Axis("pressure", tuple(np.asarray(values).tolist()), "Pa", "pressure")
+
+    def _temperature(self, table: dict[str, Any]) -> Axis:
+        _check_keys(table, "temperature", _AXIS_KEYS)
+        if "unit" not in table:
+            _missing(
+                "temperature.unit",
+                f"give the unit of the temperatures: {', '.join(TEMPERATURE_UNITS)}",
+            )
+        unit = temperature_unit(table["unit"], key="temperature.unit")
+
+        def check(v: float, key: str) -> None:
+            temperature_to_kelvin(v, unit, key=key)
+
+        numbers, canon = self._axis_numbers(
+            table, "temperature", f"a temperature in {unit}", check
+        )
+        values = temperature_to_kelvin(numbers, unit, key="temperature.values")
+        self.canonical["temperature"] = {"unit": unit, **canon}
+        return Axis("temperature", tuple(np.asarray(values).tolist()), "K", "temperature")
+
+    # -- composition -------------------------------------------------------------------------
+
+    def _composition(
+        self, table: dict[str, Any], streams: dict[str, np.ndarray]
+    ) -> CompositionAxis:
+        all_keys = tuple(dict.fromkeys(k for keys in _COMPOSITION_KEYS.values() for k in keys))
+        _check_keys(table, "composition", all_keys)
+        kinds = tuple(_COMPOSITION_KEYS)
+        if "kind" not in table:
+            _missing("composition.kind", f"choose one of {', '.join(map(repr, kinds))}")
+        kind = _choice(table["kind"], "composition.kind", kinds)
+        for key in table:
+            if key not in _COMPOSITION_KEYS[kind]:
+                raise ConfigError(
+                    f"{_join('composition', key)} is not used with composition.kind = {kind!r}; "
+                    f"keys for this kind: {', '.join(_COMPOSITION_KEYS[kind])}"
+                )
+        canon: dict[str, Any] = {"kind": kind}
+        names: list[str] = []
+        if "streams" in table or kind != "list":
+            if "streams" not in table:
+                _missing("composition.streams", "list the names of the streams to combine")
+            names = self._stream_names(table["streams"], streams)
+            canon["streams"] = names
+        if kind == "mixing":
+            axis = self._mixing(table, names, streams, canon)
+        elif kind == "simplex":
+            axis = self._simplex(table, names, streams, canon)
+        else:
+            axis = self._explicit_list(table, names, streams, canon)
+        self.canonical["composition"] = canon
+        return axis
+
+    def _stream_names(self, value: object, streams: dict[str, np.ndarray]) -> list[str]:
+        items = _list(value, "composition.streams", "a list of stream names")
+        names: list[str] = []
+        for i, name in enumerate(items):
+            key = f"composition.streams[{i}]"
+            if not isinstance(name, str):
+                _bad(key, name, "is not a stream name (a string)")
+            if name not in streams:
+                close = difflib.get_close_matches(name, list(streams), n=1, cutoff=0.5)
+                hint = f" (did you mean {close[0]!r}?)" if close else ""
+                _bad(
+                    key,
+                    name,
+                    f"is not a defined stream{hint}; defined streams: "
+                    f"{', '.join(map(repr, streams))}",
+                )
+            if name in names:
+                _bad(key, name, "is listed twice; list each stream once")
+            names.append(name)
+        return names
+
+    def _mixing(
+        self,
+        table: dict[str, Any],
+        names: list[str],
+        streams: dict[str, np.ndarray],
+        canon: dict[str, Any],
+    ) -> CompositionAxis:
+        if len(names) != 2:
+            _bad(
+                "composition.streams",
+                table["streams"],
+                "must name exactly two streams for kind = 'mixing' (the first at ratio 0, the "
+                "second at ratio 1); use kind = 'simplex' for three or more",
+            )
+
+        def check(v: float, key: str) -> None:
+            if not 0.0 <= v <= 1.0:
+                _bad(key, v, "is out of range; a mixing ratio is between 0 and 1")
+
+        ratios, axis_canon = self._axis_numbers(
+            table, "composition", "a mixing ratio between 0 and 1", check
+        )
+        if len(ratios) > MAX_COMPOSITION_POINTS:
+            _bad("composition.count", len(ratios), f"exceeds {MAX_COMPOSITION_POINTS} points")
+        canon.update(axis_canon)
+        first, second = names
+        return mixing_axis(first, second, streams[first], streams[second], ratios.tolist())
+
+    def _simplex(
+        self,
+        table: dict[str, Any],
+        names: list[str],
+        streams: dict[str, np.ndarray],
+        canon: dict[str, Any],
+    ) -> CompositionAxis:
+        if len(names) < 3:
+            _bad(
+                "composition.streams",
+                table["streams"],
+                "must name at least three streams for kind = 'simplex'; use kind = 'mixing' "
+                "for two",
+            )
+        if "divisions" not in table:
+            _missing(
+                "composition.divisions",
+                "give the number of divisions of each simplex edge (an integer >= 1)",
+            )
+        divisions = _int(
+            table["divisions"], "composition.divisions", 1, MAX_COMPOSITION_POINTS,
+            "a number of divisions"
+        )
+        size = simplex_size(len(names), divisions)
+        if size > MAX_COMPOSITION_POINTS:
+            _bad(
+                "composition.divisions",
+                divisions,
+                f"gives {size} simplex points over {len(names)} streams, more than "
+                f"{MAX_COMPOSITION_POINTS}; use fewer divisions",
+            )
+        canon["divisions"] = divisions
+        return simplex_axis(names, np.array([streams[n] for n in names]), divisions)
+
+    def _explicit_list(
+        self,
+        table: dict[str, Any],
+        names: list[str],
+        streams: dict[str, np.ndarray],
+        canon: dict[str, Any],
+    ) -> CompositionAxis:
+        has_rows = "mole_fractions" in table
+        if names and has_rows:
+            raise ConfigError(
+                "composition.mole_fractions cannot be combined with composition.streams; give "
+                "either a list of stream names or a list of compositions"
+            )
+        if not names and not has_rows:
+            _missing(
+                "composition.streams",
+                "for kind = 'list' give composition.streams = [names of streams] or "
+                "composition.mole_fractions = [compositions]",
+            )
+        if names:
+            if "normalise" in table:
+                raise ConfigError(
+                    "composition.normalise applies only to composition.mole_fractions; set "
+                    "normalise in each stream's own table instead"
+                )
+            return list_axis(np.array([streams[n] for n in names]), names)
+        normalise = _bool(table.get("normalise", False), "composition.normalise")
+        rows = _list(table["mole_fractions"], "composition.mole_fractions", "a list of compositions")
+        if len(rows) > MAX_COMPOSITION_POINTS:
+            _bad("composition.mole_fractions", rows, f"has more than {MAX_COMPOSITION_POINTS} rows")
+        feeds = []
+        canon_rows = []
+        for i, row in enumerate(rows):
+            z, fractions = self._fractions(
+                row, f"composition.mole_fractions[{i}]", normalise, "composition.normalise"
+            )
+            feeds.append(z)
+            canon_rows.append(fractions)
+        canon.update(mole_fractions=canon_rows, normalise=normalise)
+        return list_axis(np.array(feeds))
+
+    # -- run options -------------------------------------------------------------------------
+
+    def _run(
+        self,
+        table: dict[str, Any],
+        pressure: Axis,
+        temperature: Axis,
+        composition: CompositionAxis,
+    ) -> RunOptions:
+        _check_keys(table, "run", _RUN_KEYS)
+        if "output" not in table:
+            _missing("run.output", "give the path of the zarr store to write, e.g. \"out.zarr\"")
+        output = Path(_str(table["output"], "run.output", "a path for the zarr store")).expanduser()
+        if not output.is_absolute():
+            base = self.base_dir if self.base_dir is not None else Path.cwd()
+            output = base.absolute() / output
+        dims = ("pressure", "temperature", composition.name)
+        lengths = {"pressure": len(pressure), "temperature": len(temperature),
+                   composition.name: len(composition)}
+        sweep_choices = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, composition.name)))
+        sweep = _choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
+        sweep_dim = composition.name if sweep == "composition" else sweep
+        chunks = self._chunks(table.get("chunks", {}), dims, lengths, sweep_dim)
+        workers = None
+        if "workers" in table:
+            workers = _int(table["workers"], "run.workers", 1, _MAX_WORKERS, "a number of workers")
+        scheduler = _choice(table.get("scheduler", "processes"), "run.scheduler", _SCHEDULERS)
+        address = None
+        if "scheduler_address" in table:
+            address = _str(
+                table["scheduler_address"],
+                "run.scheduler_address",
+                "the address of a dask.distributed scheduler, e.g. \"tcp://10.0.0.5:8786\"",
+            )
+            if any(ch.isspace() for ch in address):
+                _bad("run.scheduler_address", address, "contains whitespace; give an address "
+                     "such as \"tcp://10.0.0.5:8786\"")
+        warm_start = _bool(table.get("warm_start", True), "run.warm_start")
+        self.canonical["run"] = {
+            "chunks": {
+                ("composition" if d == composition.name else d): n for d, n in chunks
+            },
+            "sweep": "composition" if sweep_dim == composition.name else sweep_dim,
+            "warm_start": warm_start,
+        }
+        return RunOptions(
+            output=output,
+            chunks=chunks,
+            sweep=sweep_dim,
+            workers=workers,
+            scheduler=scheduler,  # type: ignore[arg-type]
+            scheduler_address=address,
+            warm_start=warm_start,
+        )
+
+    def _chunks(
+        self,
+        value: object,
+        dims: tuple[str, str, str],
+        lengths: dict[str, int],
+        sweep_dim: str,
+    ) -> tuple[tuple[str, int], ...]:
+        table = _table(value, "run.chunks", "a table of chunk lengths, e.g. { pressure = 10 }")
+        allowed = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, dims[2])))
+        _check_keys(table, "run.chunks", allowed)
+        if "composition" in table and dims[2] in table:
+            raise ConfigError(
+                f"run.chunks.composition and run.chunks.{dims[2]} name the same dimension; "
+                "give one of them"
+            )
+        given: dict[str, int] = {}
+        for key, v in table.items():
+            dim = dims[2] if key == "composition" else key
+            n = _int(v, _join("run.chunks", key), 1, 2**62, "a chunk length in grid points")
+            given[dim] = min(n, lengths[dim])
+        sizes = {d: given.get(d, lengths[d]) for d in dims}
+        free = [d for d in dims if d not in given]
+        # Shrink the free dimensions (the sweep dimension last) until a chunk is small enough.
+        while math.prod(sizes.values()) > DEFAULT_CHUNK_CELLS:
+            candidates = [d for d in free if sizes[d] > 1 and d != sweep_dim] or [
+                d for d in free if sizes[d] > 1
+            ]
+            if not candidates:
+                break
+            d = max(candidates, key=lambda name: sizes[name])
+            sizes[d] = (sizes[d] + 1) // 2
+        return tuple((d, sizes[d]) for d in dims)
