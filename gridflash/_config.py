@@ -729,7 +729,7 @@ class _Parser:
             _bad(
                 key,
                 value,
-                f"sums to {total!r}, not 1 within {SUM_TOLERANCE:g}; correct the fractions or "
+                f"sums to {total:.10g}, not 1 within {SUM_TOLERANCE:g}; correct the fractions or "
                 f"set {normalise_key} = true to rescale them",
             )
         fractions = {name: float(v) for name, v in zip(self.names, z, strict=True)}
@@ -763,7 +763,7 @@ class _Parser:
                     f"{path}.values cannot be combined with {_join(path, extra[0])}; give either "
                     "values = [...] or start, stop and count"
                 )
-            items = _list(table["values"], f"{path}.values", f"a list of {what}")
+            items = _list(table["values"], f"{path}.values", f"a list of values, each {what}")
             if len(items) > MAX_AXIS_POINTS:
                 _bad(f"{path}.values", items, f"has more than {MAX_AXIS_POINTS} values")
             numbers = [_float(v, f"{path}.values[{i}]", what) for i, v in enumerate(items)]
