@@ -157,20 +157,31 @@ def _interaction_matrix(kij: object, names: Sequence[str]) -> np.ndarray:
     if isinstance(kij, Mapping):
         out = np.zeros((nc, nc))
         lookup = {n.lower(): i for i, n in enumerate(names)}
+
+        def resolve(name: str) -> int | None:
+            i = lookup.get(str(name).strip().lower())
+            if i is None:
+                try:
+                    i = lookup.get(builtin_component(name).name.lower())
+                except InputError:
+                    i = None
+            return i
+
         for key, value in kij.items():
-            pair = key.split("-") if isinstance(key, str) else list(key)
+            if isinstance(key, str):
+                # "CO2-C1"; names may contain dashes themselves ("n-butane"), so try every dash.
+                splits = [(key[:k], key[k + 1 :]) for k, ch in enumerate(key) if ch == "-"]
+                found = [(a, b) for a, b in splits if resolve(a) is not None and resolve(b) is not None]
+                pair = list(found[0]) if found else (list(splits[0]) if len(splits) == 1 else [key])
+            else:
+                pair = list(key)
             if len(pair) != 2:
                 raise InputError(
                     f"kij key {key!r} must name two components, as ('CO2', 'C1') or 'CO2-C1'"
                 )
             idx = []
             for name in pair:
-                i = lookup.get(str(name).strip().lower())
-                if i is None:
-                    try:
-                        i = lookup.get(builtin_component(name).name.lower())
-                    except InputError:
-                        i = None
+                i = resolve(name)
                 if i is None:
                     raise InputError(
                         f"kij key {key!r}: component {name!r} is not in the mixture "

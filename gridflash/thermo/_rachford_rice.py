@@ -162,42 +162,74 @@ def rachford_rice(
 
     idx = np.flatnonzero(solvable)
     if idx.size:
-        b, st, it, res = _solve_bracketed(km1[idx], z[idx], lo[idx], hi[idx], tol, maxiter)
+        kk = k[idx]
+        b, st, it, res = _solve_bracketed(
+            km1[idx], z[idx], lo[idx], hi[idx], kk == kmax[idx, None], kk == kmin[idx, None],
+            tol, maxiter,
+        )
         beta[idx], status[idx], iterations[idx], residual[idx] = b, st, it, res
     return RachfordRiceResult(beta=beta, status=status, iterations=iterations, residual=residual)
 
 
-def _solve_bracketed(km1, z, lo, hi, tol, maxiter):
-    """Safeguarded Newton inside the open bracket ``(lo, hi)`` where ``g(lo+) > 0 > g(hi-)``."""
+def _solve_bracketed(km1, z, lo, hi, at_lo, at_hi, tol, maxiter):
+    """Safeguarded Newton inside the open bracket ``(lo, hi)`` where ``g(lo+) > 0 > g(hi-)``.
+
+    The unknown is the distance ``d`` from the asymptote nearer the root, ``beta = base + s d``
+    (``base = lo, s = +1`` or ``base = hi, s = -1``), with denominators written as
+    ``c_i + s d (K_i - 1)``, ``c_i = 1 + base (K_i - 1)`` and ``c_i = 0`` exactly for the
+    component(s) defining that asymptote. This keeps full relative precision when the root lies
+    very close to an asymptote (the cancellation in ``1 + beta (K_i - 1)`` noted by Nielsen &
+    Lia, Fluid Phase Equilib. 2023).
+    """
     m = lo.shape[0]
-    a = lo.copy()  # g(a) > 0 (or a is the asymptote)
-    b = hi.copy()  # g(b) < 0 (or b is the asymptote)
-    # Start from the physical guess 0.5 when inside the window, else the bracket midpoint.
-    beta = np.where((a < 0.5) & (0.5 < b), 0.5, 0.5 * (a + b))
+    # Which half of the window holds the root (g decreasing): g(mid) > 0 -> upper half.
+    mid = 0.5 * (lo + hi)
+    g_mid, _, _ = _g_and_slope(mid, km1, z)
+    upper = g_mid > 0.0
+    base = np.where(upper, hi, lo)
+    sign = np.where(upper, -1.0, 1.0)
+    c = 1.0 + base[:, None] * km1
+    c = np.where(np.where(upper[:, None], at_hi, at_lo), 0.0, c)
+    d_lo = np.zeros(m)  # the asymptote itself (excluded)
+    d_hi = 0.5 * (hi - lo)  # the midpoint
+    # Start from beta = 0.5 where that is in the chosen half, else the middle of the half.
+    d0 = sign * (0.5 - base)
+    d = np.where((d0 > 0.0) & (d0 < d_hi), d0, 0.5 * d_hi)
+    if np.any(g_mid == 0.0):
+        d = np.where(g_mid == 0.0, d_hi, d)
     status = np.full(m, RachfordRiceStatus.MAX_ITERATIONS, dtype=np.int8)
     iterations = np.zeros(m, dtype=np.int32)
     residual = np.full(m, np.nan)
     active = np.arange(m)
     for it in range(1, maxiter + 1):
-        bt = beta[active]
-        g, dg, scale = _g_and_slope(bt, km1[active], z[active])
+        dd = d[active]
+        sg = sign[active]
+        k1 = km1[active]
+        denom = c[active] + (sg * dd)[:, None] * k1
+        terms = z[active] * k1 / denom
+        g = terms.sum(axis=1)
+        # dg/dd = s dg/dbeta
+        dg = -sg * (terms * k1 / denom).sum(axis=1)
+        scale = np.abs(terms).sum(axis=1)
         res = np.abs(g) / np.where(scale > 0.0, scale, 1.0)
         residual[active] = res
         iterations[active] = it
-        pos = g > 0.0
-        a[active] = np.where(pos, bt, a[active])
-        b[active] = np.where(pos, b[active], bt)
-        aa, bb = a[active], b[active]
+        # g(d) is decreasing in d on the lower side (s = +1) and increasing on the upper side.
+        root_beyond = np.where(sg > 0.0, g > 0.0, g < 0.0)  # root at larger d
+        lo_a = np.where(root_beyond, dd, d_lo[active])
+        hi_a = np.where(root_beyond, d_hi[active], dd)
+        d_lo[active], d_hi[active] = lo_a, hi_a
         with np.errstate(divide="ignore", invalid="ignore"):
-            newton = bt - g / dg
-        mid = 0.5 * (aa + bb)
-        ok = np.isfinite(newton) & (newton > aa) & (newton < bb)
-        new = np.where(ok, newton, mid)
-        stuck = (new == bt) | (mid == aa) | (mid == bb)
+            newton = dd - g / dg
+        half = 0.5 * (lo_a + hi_a)
+        ok = np.isfinite(newton) & (newton > lo_a) & (newton < hi_a)
+        new = np.where(ok, newton, half)
+        stuck = (new == dd) | (half == lo_a) | (half == hi_a)
         done = (res <= tol) | (g == 0.0) | stuck
-        beta[active] = np.where(done, bt, new)
+        d[active] = np.where(done, dd, new)
         status[active[done]] = RachfordRiceStatus.CONVERGED
         active = active[~done]
         if active.size == 0:
             break
+    beta = base + sign * d
     return beta, status, iterations, residual
