@@ -29,7 +29,6 @@ from numpy.typing import NDArray
 from .._errors import InputError
 from ._characterisation_split import (
     MAX_CARBON_LIMIT,
-    GammaSplit,
     constant_watson_sg,
     gamma_split,
 )
@@ -72,7 +71,9 @@ _DEFAULT_ACENTRIC: dict[str, str] = {"kesler-lee": "lee-kesler", "riazi-daubert"
 #: Constant kij between these light components and every pseudo-component. Values of this size
 #: are common practice with Peng-Robinson and C7+ pseudo-components (from memory, not from one
 #: published table); tune them to data when data exist.
-DEFAULT_KIJ_CONSTANTS: Mapping[str, float] = MappingProxyType({"N2": 0.10, "CO2": 0.10, "H2S": 0.05})
+DEFAULT_KIJ_CONSTANTS: Mapping[str, float] = MappingProxyType(
+    {"N2": 0.10, "CO2": 0.10, "H2S": 0.05}
+)
 #: Methane / pseudo-component kij: Chueh-Prausnitz form with A = 0.18, B = 6 (common practice).
 _C1_KIJ_A = 0.18
 _C1_KIJ_B = 6.0
@@ -474,9 +475,8 @@ def characterise(
     sg_split, kw = constant_watson_sg(split.mole_fraction, split.mw, plus.sg)
 
     measured = [s.resolved() for s in analysis.scn]
-    carbon = np.concatenate(
-        ([s.carbon_number for s in analysis.scn], split.carbon_number)
-    ).astype(int)
+    carbon = np.concatenate(([s.carbon_number for s in analysis.scn], split.carbon_number))
+    carbon = carbon.astype(int)
     z = np.concatenate(([s.mole_fraction / total for s in analysis.scn], split.mole_fraction))
     mw = np.concatenate(([m for m, _ in measured], split.mw))
     sg = np.concatenate(([g for _, g in measured], sg_split))
@@ -578,8 +578,7 @@ def characterise(
         "mixing": mixing,
         "mixing_source": _MIXING_LABELS[mixing],
         "kij_c1": (
-            f"Chueh & Prausnitz (1967) form, A={c1_kij_a:g}, B={c1_kij_b:g} "
-            "(common practice)"
+            f"Chueh & Prausnitz (1967) form, A={c1_kij_a:g}, B={c1_kij_b:g} (common practice)"
         ),
         "kij_constants": ", ".join(f"{k}={v:g}" for k, v in constants.items())
         + " with every pseudo-component (common practice)",
@@ -621,7 +620,9 @@ def _fraction_properties(
     return {"tb": tb, "tc": tc, "pc": pc, "omega": omega, "vc": vc}
 
 
-def equal_mass_groups(mass: Sequence[float] | NDArray[np.float64], n_groups: int) -> NDArray[np.int_]:
+def equal_mass_groups(
+    mass: Sequence[float] | NDArray[np.float64], n_groups: int
+) -> NDArray[np.int_]:
     """Assign consecutive fractions to ``n_groups`` groups of about equal mass.
 
     Parameters

@@ -1,4 +1,4 @@
-"""Published correlations for petroleum fractions: boiling point, critical constants, acentric factor.
+"""Published correlations for petroleum fractions: boiling point, critical constants, omega.
 
 Every function takes and returns SI units (K, Pa, m3/mol, g/mol) and works elementwise on numpy
 arrays; inside, each correlation is written in the units it was published in (degrees Rankine,
@@ -171,7 +171,7 @@ def whitson_watson_k(mw: ArrayLike, sg: ArrayLike) -> FloatArray:
 
 
 def whitson_specific_gravity(mw: ArrayLike, kw: ArrayLike) -> FloatArray:
-    """Specific gravity from molar mass at a given Watson factor (inverse of :func:`whitson_watson_k`).
+    """Specific gravity from molar mass at a given Watson factor (inverts :func:`whitson_watson_k`).
 
     ``SG = (4.5579 M^0.15178 / Kw)^(1/0.84573)``.
     """
@@ -345,9 +345,7 @@ def riazi_daubert_molar_mass(tb: ArrayLike, sg: ArrayLike) -> FloatArray:
 # --------------------------------------------------------------------------------------------
 
 
-def lee_kesler_acentric(
-    tb: ArrayLike, tc: ArrayLike, pc: ArrayLike, sg: ArrayLike
-) -> FloatArray:
+def lee_kesler_acentric(tb: ArrayLike, tc: ArrayLike, pc: ArrayLike, sg: ArrayLike) -> FloatArray:
     """Acentric factor by the Lee-Kesler (1975) / Kesler-Lee (1976) correlations.
 
     With ``Tbr = Tb / Tc`` and ``Pbr = 1 atm / Pc``:
