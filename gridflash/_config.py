@@ -279,11 +279,12 @@ def _float(value: object, key: str, what: str = "a number") -> float:
     return out
 
 
-def _int(value: object, key: str, low: int, high: int, what: str) -> int:
+def _int(value: object, key: str, low: int, high: int | None, what: str) -> int:
+    span = f"{low} to {high}" if high is not None else f"at least {low}"
     if isinstance(value, bool) or not isinstance(value, int):
-        _bad(key, value, f"is not an integer; expected {what} ({low} to {high})")
-    if not low <= value <= high:
-        _bad(key, value, f"is out of range; expected {what} ({low} to {high})")
+        _bad(key, value, f"is not an integer; expected {what} ({span})")
+    if value < low or (high is not None and value > high):
+        _bad(key, value, f"is out of range; expected {what} ({span})")
     return int(value)
 
 
@@ -302,9 +303,7 @@ def _choice(value: object, key: str, choices: tuple[str, ...], *, fold_case: boo
                 if choice.lower() == value.strip().lower():
                     return choice
     close = (
-        difflib.get_close_matches(value, choices, n=1, cutoff=0.5)
-        if isinstance(value, str)
-        else []
+        difflib.get_close_matches(value, choices, n=1, cutoff=0.5) if isinstance(value, str) else []
     )
     hint = f" (did you mean {close[0]!r}?)" if close else ""
     _bad(key, value, f"is not allowed{hint}; choose one of {', '.join(map(repr, choices))}")
@@ -427,7 +426,7 @@ class _Parser:
         if "components" not in table:
             _missing(
                 "fluid.components",
-                "list the components, e.g. components = [\"C1\", \"nC4\"] (see docs/config.md)",
+                'list the components, e.g. components = ["C1", "nC4"] (see docs/config.md)',
             )
         entries = _list(
             table["components"],
@@ -457,22 +456,21 @@ class _Parser:
                     _bad(
                         key,
                         entry if isinstance(entry, str) else comp.name,
-                        f"is the same component as fluid.components[{j}]; list each component "
-                        "once",
+                        f"is the same component as fluid.components[{j}]; list each component once",
                     )
             components.append(comp)
         self.components = tuple(components)
         self.names = tuple(c.name for c in components)
-        self.written = tuple(e if isinstance(e, str) else c.name for e, c in zip(entries, components, strict=True))
+        self.written = tuple(
+            e if isinstance(e, str) else c.name for e, c in zip(entries, components, strict=True)
+        )
         kij, canon_kij = self._kij(table.get("kij"))
         try:
             Mixture(self.components, eos=eos, kij=kij)  # type: ignore[arg-type]
         except InputError as exc:
             raise ConfigError(f"fluid: {exc}") from None
         self.canonical["fluid"] = {"eos": eos, "components": canon_components, "kij": canon_kij}
-        return FluidSpec(
-            components=self.components, eos=eos, kij=tuple(map(tuple, kij.tolist()))
-        )
+        return FluidSpec(components=self.components, eos=eos, kij=tuple(map(tuple, kij.tolist())))
 
     def _builtin(self, name: str, key: str) -> Component:
         try:
@@ -545,8 +543,11 @@ class _Parser:
             comp = Component(name, tc=tc_k, pc=pc_pa, omega=omega, mw=mw, **optional)
         except InputError as exc:
             field = next(
-                (f for f in ("omega", "vc", "zra", "volume_shift", "pc", "tc", "mw")
-                 if f"{f}=" in str(exc)),
+                (
+                    f
+                    for f in ("omega", "vc", "zra", "volume_shift", "pc", "tc", "mw")
+                    if f"{f}=" in str(exc)
+                ),
                 None,
             )
             where = f"{key}.{field}" if field else key
@@ -616,27 +617,32 @@ class _Parser:
                 idx.append(i)
             i, j = idx
             if i == j:
-                _bad(key, v, f"pairs {self.names[i]!r} with itself; kij of a component with "
-                     "itself is always 0, give pairs of two different components")
+                _bad(
+                    key,
+                    v,
+                    f"pairs {self.names[i]!r} with itself; kij of a component with "
+                    "itself is always 0, give pairs of two different components",
+                )
             k = _float(v, key, "a binary interaction parameter with |kij| < 1")
             if abs(k) >= 1.0:
                 _bad(key, v, "is out of range; binary interaction parameters need |kij| < 1")
             pair_id = (min(i, j), max(i, j))
             if pair_id in seen:
-                _bad(key, v, f"gives the pair again (already given by {seen[pair_id]}); give "
-                     "each pair once")
+                _bad(
+                    key,
+                    v,
+                    f"gives the pair again (already given by {seen[pair_id]}); give each pair once",
+                )
             seen[pair_id] = key
             matrix[i, j] = matrix[j, i] = k
-        canon = {
-            f"{self.names[i]}-{self.names[j]}": float(matrix[i, j]) for (i, j) in sorted(seen)
-        }
+        canon = {f"{self.names[i]}-{self.names[j]}": float(matrix[i, j]) for (i, j) in sorted(seen)}
         return matrix, canon
 
     def _split_pair(self, pair: str, key: str) -> tuple[str, str]:
         found: set[tuple[int, int]] = set()
         split: tuple[str, str] | None = None
         for m in re.finditer("-", pair):
-            a, b = pair[: m.start()], pair[m.end():]
+            a, b = pair[: m.start()], pair[m.end() :]
             ia, ib = self._component_index(a), self._component_index(b)
             if ia is not None and ib is not None:
                 found.add((ia, ib))
@@ -676,7 +682,8 @@ class _Parser:
             if "mole_fractions" not in stream:
                 _missing(
                     f"{path}.mole_fractions",
-                    "give the stream's mole fractions, e.g. mole_fractions = { C1 = 0.9, C2 = 0.1 }",
+                    "give the stream's mole fractions, e.g. "
+                    "mole_fractions = { C1 = 0.9, C2 = 0.1 }",
                 )
             z, fractions = self._fractions(
                 stream["mole_fractions"], f"{path}.mole_fractions", normalise, f"{path}.normalise"
@@ -823,7 +830,9 @@ class _Parser:
     def _pressure(self, table: dict[str, Any]) -> Axis:
         _check_keys(table, "pressure", _AXIS_KEYS)
         if "unit" not in table:
-            _missing("pressure.unit", f"give the unit of the pressures: {', '.join(PRESSURE_UNITS)}")
+            _missing(
+                "pressure.unit", f"give the unit of the pressures: {', '.join(PRESSURE_UNITS)}"
+            )
         unit = pressure_unit(table["unit"], key="pressure.unit")
 
         def check(v: float, key: str) -> None:
@@ -848,9 +857,7 @@ class _Parser:
         def check(v: float, key: str) -> None:
             temperature_to_kelvin(v, unit, key=key)
 
-        numbers, canon = self._axis_numbers(
-            table, "temperature", f"a temperature in {unit}", check
-        )
+        numbers, canon = self._axis_numbers(table, "temperature", f"a temperature in {unit}", check)
         values = temperature_to_kelvin(numbers, unit, key="temperature.values")
         self.canonical["temperature"] = {"unit": unit, **canon}
         return Axis("temperature", tuple(np.asarray(values).tolist()), "K", "temperature")
@@ -957,8 +964,11 @@ class _Parser:
                 "give the number of divisions of each simplex edge (an integer >= 1)",
             )
         divisions = _int(
-            table["divisions"], "composition.divisions", 1, MAX_COMPOSITION_POINTS,
-            "a number of divisions"
+            table["divisions"],
+            "composition.divisions",
+            1,
+            MAX_COMPOSITION_POINTS,
+            "a number of divisions",
         )
         size = simplex_size(len(names), divisions)
         if size > MAX_COMPOSITION_POINTS:
@@ -998,7 +1008,9 @@ class _Parser:
                 )
             return list_axis(np.array([streams[n] for n in names]), names)
         normalise = _bool(table.get("normalise", False), "composition.normalise")
-        rows = _list(table["mole_fractions"], "composition.mole_fractions", "a list of compositions")
+        rows = _list(
+            table["mole_fractions"], "composition.mole_fractions", "a list of compositions"
+        )
         if len(rows) > MAX_COMPOSITION_POINTS:
             _bad("composition.mole_fractions", rows, f"has more than {MAX_COMPOSITION_POINTS} rows")
         feeds = []
@@ -1023,14 +1035,17 @@ class _Parser:
     ) -> RunOptions:
         _check_keys(table, "run", _RUN_KEYS)
         if "output" not in table:
-            _missing("run.output", "give the path of the zarr store to write, e.g. \"out.zarr\"")
+            _missing("run.output", 'give the path of the zarr store to write, e.g. "out.zarr"')
         output = Path(_str(table["output"], "run.output", "a path for the zarr store")).expanduser()
         if not output.is_absolute():
             base = self.base_dir if self.base_dir is not None else Path.cwd()
             output = base.absolute() / output
         dims = ("pressure", "temperature", composition.name)
-        lengths = {"pressure": len(pressure), "temperature": len(temperature),
-                   composition.name: len(composition)}
+        lengths = {
+            "pressure": len(pressure),
+            "temperature": len(temperature),
+            composition.name: len(composition),
+        }
         sweep_choices = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, composition.name)))
         sweep = _choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
         sweep_dim = composition.name if sweep == "composition" else sweep
@@ -1044,16 +1059,17 @@ class _Parser:
             address = _str(
                 table["scheduler_address"],
                 "run.scheduler_address",
-                "the address of a dask.distributed scheduler, e.g. \"tcp://10.0.0.5:8786\"",
+                'the address of a dask.distributed scheduler, e.g. "tcp://10.0.0.5:8786"',
             )
             if any(ch.isspace() for ch in address):
-                _bad("run.scheduler_address", address, "contains whitespace; give an address "
-                     "such as \"tcp://10.0.0.5:8786\"")
+                _bad(
+                    "run.scheduler_address",
+                    address,
+                    'contains whitespace; give an address such as "tcp://10.0.0.5:8786"',
+                )
         warm_start = _bool(table.get("warm_start", True), "run.warm_start")
         self.canonical["run"] = {
-            "chunks": {
-                ("composition" if d == composition.name else d): n for d, n in chunks
-            },
+            "chunks": {("composition" if d == composition.name else d): n for d, n in chunks},
             "sweep": "composition" if sweep_dim == composition.name else sweep_dim,
             "warm_start": warm_start,
         }
@@ -1085,7 +1101,7 @@ class _Parser:
         given: dict[str, int] = {}
         for key, v in table.items():
             dim = dims[2] if key == "composition" else key
-            n = _int(v, _join("run.chunks", key), 1, 2**62, "a chunk length in grid points")
+            n = _int(v, _join("run.chunks", key), 1, None, "a chunk length in grid points")
             given[dim] = min(n, lengths[dim])
         sizes = {d: given.get(d, lengths[d]) for d in dims}
         free = [d for d in dims if d not in given]

@@ -26,9 +26,7 @@ __all__ = [
 ]
 
 
-def mixing_line(
-    z_first: ArrayLike, z_second: ArrayLike, ratios: ArrayLike
-) -> NDArray[np.float64]:
+def mixing_line(z_first: ArrayLike, z_second: ArrayLike, ratios: ArrayLike) -> NDArray[np.float64]:
     """Feed compositions along the mixing line between two streams.
 
     Parameters
