@@ -18,11 +18,12 @@ Fingerprint
 ``RunSpec.config_hash`` is the SHA-256 of :func:`canonical_json` of :func:`canonical_config`: the
 validated document with defaults filled in, unit spellings and component names made canonical,
 numbers as floats (integers for counts), stream fractions listed for every component, pair keys of
-``kij`` in component order and the resolved chunk sizes. Comments, whitespace, key order, ``10`` vs
-``10.0``, ``"°C"`` vs ``"degC"`` and list vs table forms of the same data do not change it. Keys
-that only say *how* or *where* to run and cannot change a stored value -- ``run.output``,
-``run.workers``, ``run.scheduler``, ``run.scheduler_address`` -- and the ``source`` label of
-pseudo-components are left out, so a run may be resumed with more workers or on a cluster.
+``kij`` in component order and the chunk lengths given (capped at the axis length). Comments,
+whitespace, key order, ``10`` vs ``10.0``, ``"°C"`` vs ``"degC"`` and list vs table forms of the
+same data do not change it. Keys that only say *how* or *where* to run and cannot change a stored
+value -- ``run.output``, ``run.workers``, ``run.scheduler``, ``run.scheduler_address`` -- and the
+``source`` label of pseudo-components are left out, so a run may be resumed with more workers or
+on a cluster.
 :func:`changed_keys` lists the dotted keys that differ between two canonical documents.
 """
 
@@ -73,9 +74,6 @@ SUM_TOLERANCE = 1e-6
 MAX_AXIS_POINTS = 1_000_000
 #: Largest number of points on the composition axis (each point stores a feed composition).
 MAX_COMPOSITION_POINTS = 100_000
-#: Default chunks are shrunk (halving the largest dimension not given in ``run.chunks``, the
-#: sweep dimension last) until a chunk holds at most this many cells.
-DEFAULT_CHUNK_CELLS = 65_536
 #: Upper bound accepted for ``run.workers``.
 _MAX_WORKERS = 100_000
 
@@ -1049,7 +1047,7 @@ class _Parser:
         sweep_choices = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, composition.name)))
         sweep = _choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
         sweep_dim = composition.name if sweep == "composition" else sweep
-        chunks = self._chunks(table.get("chunks", {}), dims, lengths, sweep_dim)
+        chunks = self._chunks(table.get("chunks", {}), dims, lengths)
         workers = None
         if "workers" in table:
             workers = _int(table["workers"], "run.workers", 1, _MAX_WORKERS, "a number of workers")
@@ -1088,7 +1086,6 @@ class _Parser:
         value: object,
         dims: tuple[str, str, str],
         lengths: dict[str, int],
-        sweep_dim: str,
     ) -> tuple[tuple[str, int], ...]:
         table = _table(value, "run.chunks", "a table of chunk lengths, e.g. { pressure = 10 }")
         allowed = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, dims[2])))
@@ -1103,15 +1100,6 @@ class _Parser:
             dim = dims[2] if key == "composition" else key
             n = _int(v, _join("run.chunks", key), 1, None, "a chunk length in grid points")
             given[dim] = min(n, lengths[dim])
-        sizes = {d: given.get(d, lengths[d]) for d in dims}
-        free = [d for d in dims if d not in given]
-        # Shrink the free dimensions (the sweep dimension last) until a chunk is small enough.
-        while math.prod(sizes.values()) > DEFAULT_CHUNK_CELLS:
-            candidates = [d for d in free if sizes[d] > 1 and d != sweep_dim] or [
-                d for d in free if sizes[d] > 1
-            ]
-            if not candidates:
-                break
-            d = max(candidates, key=lambda name: sizes[name])
-            sizes[d] = (sizes[d] + 1) // 2
-        return tuple((d, sizes[d]) for d in dims)
+        # Only the dimensions the config gives: the chunk plan (gridflash._chunks) chooses the
+        # others, so the default policy lives in one place.
+        return tuple((d, given[d]) for d in dims if d in given)

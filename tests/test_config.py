@@ -749,22 +749,21 @@ def test_defaults_and_single_value_axes() -> None:
     assert spec.run.workers is None and spec.run.scheduler == "processes"
     assert spec.run.scheduler_address is None and spec.run.warm_start is True
     assert spec.run.sweep == "pressure"
-    assert spec.run.chunks == (("pressure", 1), ("temperature", 1), ("mixing_ratio", 1))
+    assert spec.run.chunks == ()  # no run.chunks: the chunk plan chooses every length
     np.testing.assert_allclose(spec.composition.feeds[0], [0.525, 0.175, 0.3], atol=1e-15)
 
 
-def test_default_chunks_are_bounded() -> None:
+def test_chunks_hold_only_the_given_dimensions_in_grid_order() -> None:
     doc = base()
-    doc["pressure"] = {"unit": "bar", "start": 10, "stop": 500, "count": 200}
-    doc["temperature"] = {"unit": "K", "start": 250, "stop": 600, "count": 100}
-    doc["composition"]["count"] = 51
-    doc["run"] = {"output": "o.zarr", "chunks": {"temperature": 10}}
+    doc["run"]["chunks"] = {"composition": 4, "pressure": 2}
     spec = parse_doc(doc)
-    chunks = dict(spec.run.chunks)
-    assert chunks["temperature"] == 10  # as given
-    assert math.prod(chunks.values()) <= 65_536
-    assert chunks["pressure"] == 200  # the sweep dimension is shrunk last
-    assert spec.run.chunks[2][0] == "mixing_ratio" and 1 <= chunks["mixing_ratio"] <= 51
+    assert spec.run.chunks == (("pressure", 2), ("mixing_ratio", 4))
+    assert canonical_config(to_toml(doc))["run"]["chunks"] == {"pressure": 2, "composition": 4}
+    doc["run"]["chunks"] = {"mixing_ratio": 4, "composition": 4}
+    with pytest.raises(
+        ConfigError, match=r"run\.chunks\.composition and run\.chunks\.mixing_ratio"
+    ):
+        parse_doc(doc)
 
 
 def test_chunk_larger_than_axis_is_the_whole_axis() -> None:
