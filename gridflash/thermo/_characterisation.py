@@ -80,6 +80,8 @@ _C1_KIJ_B = 6.0
 
 #: Accepted deviation of the analysis' total from 1 before it is normalised (lab reports round).
 _TOTAL_TOLERANCE = 1e-3
+#: Totals this close to 1 are taken as exactly 1 (no division).
+_EXACT_TOTAL = 1e-12
 
 _MIXING_LABELS = {
     "mass": "mass-fraction-weighted Tc, Pc, omega, Vc (Pedersen, Thomassen & Fredenslund 1984)",
@@ -420,7 +422,8 @@ def characterise(
 
     Notes
     -----
-    Mole fractions are first divided by their total. The plus-fraction is split by
+    Mole fractions are first divided by their total (unless it is within 1e-12 of 1). The
+    plus-fraction is split by
     :func:`~gridflash.thermo._characterisation_split.gamma_split` (its moles and mass are
     reproduced to rounding) and its fractions get SGs from one Watson factor matching the
     plus-fraction's SG. Boiling point, Tc, Pc, omega and Vc (Riazi & Daubert 1980) follow for
@@ -462,7 +465,11 @@ def characterise(
             raise InputError(f"kij_constants[{key!r}] = {value!r}; it must be finite, |kij| < 1")
         constants[canonical] = v
 
+    # Divide by the total only when it differs from 1 by more than rounding, so that exact input
+    # fractions come out unchanged.
     total = analysis.total
+    if abs(total - 1.0) <= _EXACT_TOTAL:
+        total = 1.0
     plus = analysis.plus
     split = gamma_split(
         plus.carbon_number,
@@ -542,7 +549,7 @@ def characterise(
         "plus_mole_fraction": float(plus.mole_fraction),
         "plus_mw": float(plus.mw),
         "plus_sg": float(plus.sg),
-        "input_total_mole_fraction": float(total),
+        "input_total_mole_fraction": float(analysis.total),
         "split": "Whitson (1983) three-parameter gamma distribution over molar mass",
         "split_alpha": split.alpha,
         "split_eta": split.eta,
@@ -739,8 +746,8 @@ def _check_fraction(name: str, value: object) -> None:
         or not 0.0 < float(value) <= 1.0
     ):
         raise InputError(
-            f"{name}: mole fraction {value!r} must be a number in (0, 1]; leave out components "
-            "that are absent"
+            f"{name}: mole fraction {value!r} must be a number in (0, 1] (fractions, not "
+            "percentages); leave out components that are absent"
         )
 
 
