@@ -169,9 +169,10 @@ def parse_config(
 
     Examples
     --------
-    >>> spec = parse_config(Path("configs/small_test.toml").read_text())  # doctest: +SKIP
-    >>> spec.shape  # doctest: +SKIP
-    (5, 3, 6)
+    ::
+
+        spec = parse_config(Path("configs/small_test.toml").read_text(), base_dir="configs")
+        spec.shape  # (5, 3, 6): pressure x temperature x mixing_ratio
     """
     spec, _ = _parse_with_source(text, source, base_dir)
     return spec

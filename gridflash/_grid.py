@@ -222,7 +222,10 @@ def block_inputs(
 
     Examples
     --------
-    >>> p, t, z = block_inputs(spec, (slice(0, 10), slice(None), slice(2, 4)))  # doctest: +SKIP
+    ::
+
+        p, t, z = block_inputs(spec, (slice(0, 10), slice(None), slice(2, 4)))
+        p.reshape(10, len(spec.temperature), 2)  # back to the block's shape
     """
     slices = _normalise_slices(spec, index_slices)
     pressure = np.asarray(spec.pressure.values, dtype=float)[slices[0]]
