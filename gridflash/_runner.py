@@ -1,0 +1,487 @@
+"""Run a grid: one dask task per block, writing the zarr store from the workers.
+
+Each task is a pure function of its block id (:func:`compute_block`): it builds the block's
+inputs, flashes them slab by slab with warm starts, writes its region of the store, marks the
+block complete and returns a small summary. The driver (:func:`run`) only creates the store,
+submits the blocks in bounded batches, drains them with ``as_completed`` (progress), and records
+the final statistics. The same code runs on a local ``LocalCluster`` (processes or threads) and
+on an existing ``dask.distributed`` cluster (``scheduler_address``); in the latter case the
+workers write the store themselves, so its path must be on a filesystem every worker sees.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import logging
+import os
+import time
+import uuid
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+import numpy as np
+
+from ._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
+from ._errors import GridflashError, InputError, StoreError
+from ._grid import block_inputs
+from ._spec import RunSpec
+from ._store import (
+    BlockStats,
+    block_stats,
+    completed_blocks,
+    create_store,
+    finish_store,
+    is_gridflash_store,
+    mark_block_complete,
+    read_root_attrs,
+    remove_store,
+    set_run_state,
+    stored_block_stats,
+    stored_chunks,
+    write_block,
+)
+from ._sweep import sweep_block
+
+__all__ = ["BlockSummary", "BlockTask", "Progress", "RunSummary", "compute_block", "run"]
+
+#: Times dask re-runs a task that raised (a worker death is retried by the scheduler anyway,
+#: up to ``distributed.scheduler.allowed-failures``).
+_RETRIES = 2
+#: Seconds to wait when connecting to an existing scheduler, and for its first worker.
+_CONNECT_TIMEOUT = 10.0
+_WORKER_TIMEOUT = 30.0
+#: Tasks in flight per worker thread (bounds the graph and the memory of finished results).
+_IN_FLIGHT_PER_THREAD = 2
+
+
+@dataclass(frozen=True)
+class BlockTask:
+    """Everything a worker needs to compute one block."""
+
+    spec: RunSpec
+    store: str
+    block: BlockId
+
+
+@dataclass(frozen=True)
+class BlockSummary:
+    """What a task returns: its block, its counts and its compute time."""
+
+    block: BlockId
+    stats: BlockStats
+    seconds: float
+
+
+@dataclass(frozen=True)
+class Progress:
+    """Progress of a run, passed to the ``progress`` callback after every finished block.
+
+    Attributes
+    ----------
+    cells_done, cells_to_do : int
+        Cells computed so far in this session, and the cells this session computes.
+    blocks_done, blocks_to_do : int
+        The same in blocks.
+    elapsed : float
+        Seconds since the first block was submitted.
+    cells_per_second : float
+        ``cells_done / elapsed`` (0 before the first block is done).
+    seconds_left : float or None
+        Estimated seconds to finish at the current rate (None before the first block is done).
+    """
+
+    cells_done: int
+    cells_to_do: int
+    blocks_done: int
+    blocks_to_do: int
+    elapsed: float
+    cells_per_second: float
+    seconds_left: float | None
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """Outcome of :func:`run`.
+
+    Attributes
+    ----------
+    output : Path
+        The store.
+    blocks_total, blocks_computed, blocks_reused : int
+        Blocks of the grid; blocks computed in this session; blocks found complete in the store
+        (``--resume``) and kept.
+    cells_total, cells_computed : int
+    stats : BlockStats
+        Counts over the whole store (two-phase, single-phase, unconverged cells, iterations).
+    wall_time : float
+        Seconds this session took, cluster start-up included.
+    cells_per_second : float
+        Cells computed in this session per second of computing.
+    workers : int
+        Worker threads used.
+    scheduler : str
+        ``"processes"``, ``"threads"`` or the address of the scheduler used.
+    """
+
+    output: Path
+    blocks_total: int
+    blocks_computed: int
+    blocks_reused: int
+    cells_total: int
+    cells_computed: int
+    stats: BlockStats
+    wall_time: float
+    cells_per_second: float
+    workers: int
+    scheduler: str
+
+
+def compute_block(task: BlockTask) -> BlockSummary:
+    """Compute, write and mark one block; the function each dask task runs.
+
+    Pure in the sense dask needs: running it again for the same block writes the same bytes to
+    the same chunks, so a retried or duplicated task is harmless.
+    """
+    spec = task.spec
+    plan = chunk_plan(spec)
+    start = time.perf_counter()
+    pressure, temperature, z = block_inputs(spec, plan.block_slices(task.block))
+    result = sweep_block(
+        spec.fluid.mixture(),
+        pressure,
+        temperature,
+        z,
+        plan.block_shape(task.block),
+        plan.sweep_axis,
+        warm_start=spec.run.warm_start,
+    )
+    path = Path(task.store)
+    write_block(path, plan, task.block, result)
+    mark_block_complete(path, task.block)
+    stats = block_stats(
+        result["phase_count"], result["converged"], result["iterations"],
+        result["stability_iterations"], result["warm_start"],
+    )
+    return BlockSummary(task.block, stats, time.perf_counter() - start)
+
+
+def run(
+    spec: RunSpec,
+    *,
+    resume: bool = False,
+    overwrite: bool = False,
+    workers: int | None = None,
+    scheduler_address: str | None = None,
+    progress: Callable[[Progress], None] | None = None,
+) -> RunSummary:
+    """Compute a whole grid into its zarr store.
+
+    Parameters
+    ----------
+    spec : RunSpec
+        The run; the store goes to ``spec.run.output``. ``spec.run.scheduler`` picks local
+        processes or threads; ``spec.run.warm_start`` switches warm starts.
+    resume : bool
+        Finish an existing store made from the same config: blocks marked complete are kept and
+        only the others are computed. Without an existing store this is a fresh run.
+    overwrite : bool
+        Replace an existing gridflash store.
+    workers : int, optional
+        Local workers (processes, or threads); default ``spec.run.workers``, else every core.
+        Ignored with a scheduler address.
+    scheduler_address : str, optional
+        Address of a running ``dask.distributed`` scheduler (default
+        ``spec.run.scheduler_address``); its workers compute and write the blocks, so the store
+        path must be on a filesystem they share.
+    progress : callable, optional
+        Called with a :class:`Progress` after every finished block.
+
+    Returns
+    -------
+    RunSummary
+
+    Raises
+    ------
+    StoreError
+        The output exists and neither ``resume`` nor ``overwrite`` is set; the store cannot be
+        resumed (another config, other chunks, not a gridflash store); the output cannot be
+        written.
+    GridflashError
+        The scheduler cannot be reached or has no workers; a block lost its workers too often.
+    InputError
+        Both ``resume`` and ``overwrite`` are set, or ``workers`` is not a positive integer.
+
+    Notes
+    -----
+    The store's ``run_state`` attribute is ``"running"`` until every block is written and the
+    statistics are recorded, then ``"complete"``; a killed run leaves ``"running"`` and can be
+    finished with ``resume=True``.
+    """
+    started = time.perf_counter()
+    if resume and overwrite:
+        raise InputError("resume and overwrite exclude each other; choose one")
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int)
+                                or workers < 1):
+        raise InputError(f"workers={workers!r} must be a positive integer")
+    path = Path(spec.run.output).expanduser().absolute()
+    spec = replace(spec, run=replace(spec.run, output=path))
+    plan = chunk_plan(spec)
+    address = scheduler_address or spec.run.scheduler_address
+    exists = path.exists() or path.is_symlink()
+
+    if exists and not (resume or overwrite):
+        raise StoreError(
+            f"output {str(path)!r} already exists; use --resume to finish it or --overwrite to "
+            "replace it"
+        )
+    fresh = not (exists and resume)
+    done = np.zeros(plan.blocks_shape, dtype=bool)
+    if not fresh:
+        _check_resumable(path, spec, plan)
+        done = completed_blocks(path, plan)
+    elif exists and not is_gridflash_store(path):
+        remove_store(path)  # refuses anything but an empty folder, before any work starts
+
+    todo = [b for b in plan.block_ids() if not done[b]]
+    n_workers = min(workers or spec.run.workers or os.cpu_count() or 1, max(len(todo), 1))
+    computed: list[BlockSummary] = []
+    threads = 0
+    compute_seconds = 0.0
+    # Connect (or start the local cluster) before touching the output, so an unreachable
+    # scheduler leaves an existing store as it was.
+    connection = (
+        _connect(address, spec.run.scheduler, n_workers) if todo
+        else contextlib.nullcontext(None)
+    )
+    with connection as client:
+        if fresh:
+            remove_store(path)
+            create_store(path, spec, plan)
+        else:
+            set_run_state(path, "running")
+        if todo:
+            threads = _check_workers(client, path, address)
+            t0 = time.perf_counter()
+            computed = _drain(client, spec, path, plan, todo, threads, progress)
+            compute_seconds = time.perf_counter() - t0
+
+    reused = [b for b in plan.block_ids() if done[b]]
+    stats = sum((s.stats for s in computed), BlockStats())
+    for block in reused:
+        stats = stats + stored_block_stats(path, plan, block)
+    attrs = read_root_attrs(path)
+    session = time.perf_counter() - started
+    final = {
+        "wall_time_seconds": round(float(attrs.get("wall_time_seconds", 0.0)) + session, 3),
+        "run_sessions": int(attrs.get("run_sessions", 0)) + 1,
+        "blocks_computed_last_session": len(computed),
+        "blocks_reused_last_session": len(reused),
+    }
+    finish_store(path, stats, **final)
+    cells_computed = sum(s.stats.cells for s in computed)
+    return RunSummary(
+        output=path,
+        blocks_total=plan.n_blocks,
+        blocks_computed=len(computed),
+        blocks_reused=len(reused),
+        cells_total=plan.n_cells,
+        cells_computed=cells_computed,
+        stats=stats,
+        wall_time=session,
+        cells_per_second=cells_computed / compute_seconds if compute_seconds > 0 else 0.0,
+        workers=threads,
+        scheduler=address or spec.run.scheduler,
+    )
+
+
+# --------------------------------------------------------------------------------------------
+# Resume checks
+# --------------------------------------------------------------------------------------------
+
+
+def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
+    if not is_gridflash_store(path):
+        raise StoreError(
+            f"cannot resume {str(path)!r}: it is not a gridflash store; choose another output "
+            "path, or --overwrite if it may be deleted"
+        )
+    attrs = read_root_attrs(path)
+    old_hash = attrs.get("config_hash")
+    if old_hash != spec.config_hash:
+        keys = _changed_keys(str(attrs.get("config_text", "")), spec.config_text)
+        what = f"changed keys: {', '.join(keys)}" if keys else (
+            f"config hash {str(old_hash)[:12]!r} in the store, {spec.config_hash[:12]!r} now")
+        raise StoreError(
+            f"cannot resume {str(path)!r}: the config differs from the one the store was made "
+            f"with ({what}); run the original config, or use --overwrite to start again"
+        )
+    if int(attrs.get("warm_start", -1)) != int(spec.run.warm_start):
+        was = "on" if attrs.get("warm_start") else "off"
+        raise StoreError(
+            f"cannot resume {str(path)!r}: it was computed with warm starts {was}; resume with "
+            f"the same setting ({'drop' if was == 'on' else 'add'} --no-warm-start) or use "
+            "--overwrite"
+        )
+    for name, (dims, shape, chunks) in stored_chunks(path).items():
+        check_chunks_aligned(plan, name, dims, shape, chunks)
+
+
+def _changed_keys(old_text: str, new_text: str) -> list[str]:
+    from ._config import canonical_config, changed_keys
+
+    try:
+        return changed_keys(canonical_config(old_text), canonical_config(new_text))
+    except GridflashError:
+        return []
+
+
+# --------------------------------------------------------------------------------------------
+# Cluster and task submission
+# --------------------------------------------------------------------------------------------
+
+
+@contextlib.contextmanager
+def _connect(address: str | None, kind: str, n_workers: int) -> Iterator[object]:
+    """A ``distributed.Client`` on an existing scheduler or on a new local cluster."""
+    from distributed import Client, LocalCluster
+
+    if address:
+        try:
+            client = Client(address, timeout=_CONNECT_TIMEOUT, set_as_default=False)
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise GridflashError(
+                f"cannot reach the dask scheduler at {address!r} ({_one_line(exc)}); start it "
+                "with `dask scheduler` or check the address"
+            ) from None
+        try:
+            yield client
+        finally:
+            client.close()
+        return
+    processes = kind == "processes"
+    cluster = LocalCluster(
+        n_workers=n_workers if processes else 1,
+        threads_per_worker=1 if processes else n_workers,
+        processes=processes,
+        dashboard_address=None,
+        silence_logs=logging.ERROR,
+    )
+    try:
+        client = Client(cluster, set_as_default=False)
+        try:
+            yield client
+        finally:
+            client.close()
+    finally:
+        cluster.close()
+
+
+def _check_workers(client, path: Path, address: str | None) -> int:
+    """Wait for a worker, check every worker sees the store; return the worker thread count."""
+    try:
+        client.wait_for_workers(1, timeout=_WORKER_TIMEOUT)
+    except TimeoutError:
+        raise GridflashError(
+            f"the dask scheduler at {address!r} has no workers after {_WORKER_TIMEOUT:g} s; "
+            "start some with `dask worker ADDRESS`"
+        ) from None
+    if address:
+        try:
+            seen = client.run(_sees_store, str(path))
+        except Exception as exc:  # noqa: BLE001 - any worker-side failure ends the run the same way
+            raise GridflashError(
+                f"the dask workers cannot run gridflash ({_one_line(exc)}); install gridflash in "
+                "the workers' environment"
+            ) from None
+        blind = sorted(worker for worker, ok in seen.items() if not ok)
+        if blind:
+            raise StoreError(
+                f"worker(s) {', '.join(blind)} cannot see the store {str(path)!r}; the workers "
+                "write the store themselves, so it must be on a filesystem every worker "
+                "shares (see docs/running.md)"
+            )
+    info = client.scheduler_info(n_workers=-1)
+    return max(1, sum(w.get("nthreads", 1) for w in info.get("workers", {}).values()))
+
+
+def _sees_store(path: str) -> bool:
+    import gridflash  # noqa: F401 - fails here if the worker cannot import gridflash
+
+    return os.path.isfile(os.path.join(path, "zarr.json"))
+
+
+def _drain(
+    client,
+    spec: RunSpec,
+    path: Path,
+    plan: ChunkPlan,
+    todo: list[BlockId],
+    threads: int,
+    progress: Callable[[Progress], None] | None,
+) -> list[BlockSummary]:
+    from distributed import as_completed
+    from distributed.scheduler import KilledWorker
+
+    session = uuid.uuid4().hex[:8]
+    cells_to_do = sum(plan.block_cells(b) for b in todo)
+    pending = iter(todo)
+    in_flight = max(2, _IN_FLIGHT_PER_THREAD * threads)
+    block_of = {}
+
+    def submit(block: BlockId):
+        key = f"gridflash-block-{session}-{'-'.join(map(str, block))}"
+        future = client.submit(
+            compute_block, BlockTask(spec, str(path), block), key=key, retries=_RETRIES,
+            pure=False,
+        )
+        block_of[future.key] = block
+        return future
+
+    def submit_next() -> None:
+        block = next(pending, None)
+        if block is not None:
+            futures.add(submit(block))
+
+    start = time.perf_counter()
+    futures = as_completed(
+        [submit(b) for _, b in zip(range(in_flight), pending)], loop=client.loop
+    )
+    out: list[BlockSummary] = []
+    cells_done = 0
+    try:
+        for future in futures:
+            block = block_of.pop(future.key)
+            try:
+                summary = future.result()
+            except GridflashError:
+                raise
+            except KilledWorker:
+                raise GridflashError(
+                    f"block {block!r} was lost with its worker too many times "
+                    "(distributed.scheduler.allowed-failures); check the workers' memory and "
+                    "logs, then finish the run with --resume"
+                ) from None
+            except OSError as exc:
+                raise StoreError(
+                    f"writing block {block!r} to {str(path)!r} failed: {_one_line(exc)}; check "
+                    "the disk space and permissions, then finish the run with --resume"
+                ) from None
+            out.append(summary)
+            cells_done += summary.stats.cells
+            submit_next()
+            if progress is not None:
+                elapsed = time.perf_counter() - start
+                rate = cells_done / elapsed if elapsed > 0 else 0.0
+                left = (cells_to_do - cells_done) / rate if rate > 0 else None
+                progress(Progress(cells_done, cells_to_do, len(out), len(todo), elapsed, rate,
+                                  left))
+    except BaseException:
+        futures.clear()
+        raise
+    return out
+
+
+def _one_line(exc: BaseException) -> str:
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    return text if len(text) <= 200 else text[:197] + "..."
