@@ -10,7 +10,7 @@ from ._cubic import phase_state, reduced_parameters
 from ._mixture import Mixture
 from ._properties import phase_properties, single_phase_label, wilson_ln_k
 from ._result import FlashResult, FlashStatus, PhaseLabel
-from ._split import SplitResult, two_phase_split
+from ._split import SplitResult, newton_split, two_phase_split
 from ._stability import stability_test
 
 __all__ = ["flash"]
@@ -228,24 +228,19 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0) -> FlashResult:
             sp = two_phase_split(model, sqrt_a[u], b_i[u], z[u], st.ln_k_seed[~stable])
             iterations[u] += sp.iterations
             ok = _good_split(sp)
-            # A second attempt from Wilson's K-values where the stability seed failed.
-            retry = np.flatnonzero(~ok)
-            if retry.size:
-                r = u[retry]
-                sp2 = two_phase_split(model, sqrt_a[r], b_i[r], z[r], ln_kw[~stable][retry])
-                iterations[r] += sp2.iterations
-                ok2 = _good_split(sp2)
-                take(u, sp, ok)
-                take(r, sp2, ok2)
-                # Cells that failed twice keep the first attempt's state and its status.
-                failed = retry[~ok2]
-                take(u, sp, np.isin(np.arange(u.size), failed))
-                status[u[failed]] = np.where(
-                    sp.status[failed] == FlashStatus.CONVERGED,
-                    FlashStatus.NO_TWO_PHASE_ROOT, sp.status[failed],
-                )
-            else:
-                take(u, sp, ok)
+            take(u, sp, np.ones(u.size, dtype=bool))
+            failed = u[~ok]
+            if failed.size:
+                # Where substitution failed, minimise the Gibbs energy directly from the
+                # stability test's trial phase, iterated to its stationary point.
+                fb = _gibbs_descent(model, sqrt_a[failed], b_i[failed], z[failed],
+                                    feed.ln_phi[failed], ln_kw[np.isin(c, failed)])
+                iterations[failed] += fb.iterations
+                ok2 = _good_split(fb)
+                take(failed, fb, ok2)
+                still = failed[~ok2]
+                status[still] = np.where(status[still] == FlashStatus.CONVERGED,
+                                         FlashStatus.NO_TWO_PHASE_ROOT, status[still])
 
     # Gibbs energy of every converged split must not exceed the feed's.
     two = phase_count == 2
@@ -299,6 +294,35 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0) -> FlashResult:
         liquid=liquid,
         vapour=vapour,
     )
+
+
+def _gibbs_descent(model, sqrt_a, b_i, z, ln_phi_z, ln_kw) -> SplitResult:
+    """Split from the most negative stationary point of tm, by robust Newton on the Gibbs energy.
+
+    The initial vapour mole numbers are ``beta w`` for the trial phase ``w`` with the lowest
+    ``tm``, with ``beta`` chosen from a few candidates by the lowest Gibbs energy (Michelsen &
+    Mollerup 2007, ch. 10: a negative tangent-plane distance guarantees a lower-Gibbs split
+    with a small amount of the trial phase).
+    """
+    st = stability_test(model, sqrt_a, b_i, z, ln_phi_z, ln_kw, early_exit=False)
+    which = np.argmin(np.nan_to_num(st.trial_tm, nan=np.inf), axis=0)
+    w = np.where((which == 0)[:, None], st.trials[0], st.trials[1])
+    present = z > 0.0
+    best_v = None
+    best_g = np.full(z.shape[0], np.inf)
+    for frac in (0.01, 0.05, 0.2, 0.4, 0.6, 0.8, 0.95):
+        v = np.where(present, np.minimum(frac * w, (1.0 - 1e-6) * z), 0.0)
+        v = np.where(np.isfinite(v), v, 0.5 * z)
+        from ._split import _evaluate_v  # noqa: PLC0415
+
+        ev = _evaluate_v(model, sqrt_a, b_i, z, present, v)
+        g = np.where(np.isfinite(ev.gibbs), ev.gibbs, np.inf)
+        better = g < best_g
+        best_v = v if best_v is None else np.where(better[:, None], v, best_v)
+        best_g = np.where(better, g, best_g)
+    res = newton_split(model, sqrt_a, b_i, z, best_v, robust=True)
+    object.__setattr__(res, "iterations", res.iterations + st.iterations)
+    return res
 
 
 def _good_split(sp: SplitResult) -> NDArray[np.bool_]:

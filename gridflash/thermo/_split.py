@@ -2,16 +2,18 @@
 
 Successive substitution on ``ln K`` (``ln K_i <- ln phi_i^L - ln phi_i^V``, with the vapour fraction
 from Rachford-Rice at every step) accelerated by the Crowe-Nishio dominant-eigenvalue method (GDEM)
-and safeguarded by the Gibbs energy, then a Newton finish on the fugacity residual in the vapour
-mole numbers ``v_i`` (Michelsen, Fluid Phase Equilib. 9 (1982) 21, "Part II. Phase-split
+and safeguarded by the Gibbs energy, then a Newton finish that minimises the Gibbs energy in the
+vapour mole numbers ``v_i`` (Michelsen, Fluid Phase Equilib. 9 (1982) 21, "Part II. Phase-split
 calculation"; Michelsen & Mollerup 2007, ch. 10)::
 
-    g_i(v) = ln(y_i phi_i^V) - ln(x_i phi_i^L)
+    g_i(v) = ln(y_i phi_i^V) - ln(x_i phi_i^L)          (the gradient of G / RT)
     dg_i/dv_j = [delta_ij / y_i - 1 + Phi^V_ij] / V + [delta_ij / x_i - 1 + Phi^L_ij] / L
 
 where ``Phi_ij = n d(ln phi_i)/dn_j``. The Newton system is scaled symmetrically by
-``sqrt(v_i l_i / z_i)`` and each step is shortened to keep ``0 < v_i < z_i`` and halved while it
-raises the Gibbs energy.
+``sqrt(v_i l_i / z_i)``; each step is shortened to keep ``0 < v_i < z_i`` and halved while it
+raises the Gibbs energy. In the robust mode the scaled Hessian is shifted to be positive definite,
+which turns the Newton iteration into a descent method that reaches a Gibbs-energy minimum from a
+stability-test trial phase even where substitution collapses to the trivial solution.
 """
 
 from __future__ import annotations
@@ -25,7 +27,7 @@ from ._cubic import CubicModel, PhaseState, ln_phi_derivatives, phase_state
 from ._rachford_rice import RachfordRiceStatus, rachford_rice
 from ._result import FlashStatus
 
-__all__ = ["SplitResult", "two_phase_split"]
+__all__ = ["SplitResult", "newton_split", "split_gibbs", "two_phase_split"]
 
 TOL_RESIDUAL = 1e-10  # max |ln f_i^V - ln f_i^L| of a converged cell
 TOL_BALANCE = 1e-12  # material balance of a converged cell
@@ -35,8 +37,11 @@ _SWITCH_AFTER = 25  # ...or after this many substitution steps
 _GDEM_EVERY = 5
 _TRIVIAL_LNK = 1e-5  # max |ln K| below this: the phases have become identical
 _MAX_SS = 200
-_MAX_NEWTON = 40
+_MAX_NEWTON = 60
+_MAX_NEWTON_ROBUST = 150
+_MAX_HALVINGS = 8
 _WARM_MAX_SS = 20  # a warm start that has not reached Newton by then is abandoned
+_MIN_EIG = 1e-6  # robust mode: smallest eigenvalue kept in the scaled Hessian
 
 
 @dataclass(frozen=True, eq=False)
@@ -56,8 +61,56 @@ class SplitResult:
     gibbs: NDArray[np.float64]
 
 
+class _Out:
+    """Output arrays of a split, filled cell by cell."""
+
+    def __init__(self, z: np.ndarray) -> None:
+        n, nc = z.shape
+        self.z = z
+        self.status = np.full(n, FlashStatus.MAX_ITERATIONS, dtype=np.int8)
+        self.iterations = np.zeros(n, dtype=np.int32)
+        self.beta = np.full(n, np.nan)
+        self.x = np.full((n, nc), np.nan)
+        self.y = np.full((n, nc), np.nan)
+        self.ln_k = np.full((n, nc), np.nan)
+        self.z_liquid = np.full(n, np.nan)
+        self.z_vapour = np.full(n, np.nan)
+        self.residual = np.full(n, np.nan)
+        self.balance = np.full(n, np.nan)
+        self.gibbs = np.full(n, np.nan)
+
+    def store(self, idx, ev: _Eval, mask, code) -> None:
+        present = self.z[idx] > 0.0
+        b, x, y = ev.beta[mask], ev.x[mask], ev.y[mask]
+        self.beta[idx] = b
+        self.x[idx] = x
+        self.y[idx] = y
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ln_ratio = np.log(np.where(present, y, 1.0) / np.where(present, x, 1.0))
+        self.ln_k[idx] = np.where(present, ln_ratio, ev.ln_k_next[mask])
+        self.z_liquid[idx] = ev.liq.z[mask]
+        self.z_vapour[idx] = ev.vap.z[mask]
+        self.residual[idx] = ev.residual[mask]
+        self.gibbs[idx] = ev.gibbs[mask]
+        with np.errstate(invalid="ignore"):
+            self.balance[idx] = np.maximum(
+                np.abs(np.sum(y - x, axis=1)),
+                np.max(np.abs(self.z[idx] - (1.0 - b)[:, None] * x - b[:, None] * y), axis=1),
+            )
+        self.status[idx] = code
+
+    def result(self) -> SplitResult:
+        return SplitResult(
+            status=self.status, beta=self.beta, x=self.x, y=self.y, ln_k=self.ln_k,
+            z_liquid=self.z_liquid, z_vapour=self.z_vapour, iterations=self.iterations,
+            residual=self.residual, material_balance=self.balance, gibbs=self.gibbs,
+        )
+
+
 @dataclass(eq=False)
 class _Eval:
+    """EOS evaluation of a trial split."""
+
     beta: np.ndarray
     x: np.ndarray
     y: np.ndarray
@@ -68,6 +121,24 @@ class _Eval:
     gibbs: np.ndarray
     rr_ok: np.ndarray
 
+    def take(self, mask) -> _Eval:
+        return _Eval(self.beta[mask], self.x[mask], self.y[mask], _sub(self.liq, mask),
+                     _sub(self.vap, mask), self.residual[mask], self.ln_k_next[mask],
+                     self.gibbs[mask], self.rr_ok[mask])
+
+    def put(self, mask, other: _Eval) -> None:
+        for name in ("beta", "x", "y", "residual", "ln_k_next", "gibbs", "rr_ok"):
+            getattr(self, name)[mask] = getattr(other, name)
+        for ph in ("liq", "vap"):
+            a, b = getattr(self, ph), getattr(other, ph)
+            for f in ("z", "ln_phi", "a", "b", "psi"):
+                getattr(a, f)[mask] = getattr(b, f)
+
+
+def _sub(state: PhaseState, mask) -> PhaseState:
+    return PhaseState(z=state.z[mask], ln_phi=state.ln_phi[mask], a=state.a[mask],
+                      b=state.b[mask], psi=state.psi[mask])
+
 
 def _xlogx_sum(frac, ln_phi, present):
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -75,40 +146,53 @@ def _xlogx_sum(frac, ln_phi, present):
     return t.sum(axis=1)
 
 
-def _evaluate_phases(model, sa, bi, z, present, beta, x, y, ln_k_for_residual=None):
+def split_gibbs(beta, x, y, ln_phi_l, ln_phi_v, present):
+    """Gibbs energy of a split per mole of feed, over RT (ideal-gas reference terms dropped)."""
+    return beta * _xlogx_sum(y, ln_phi_v, present) + (1.0 - beta) * _xlogx_sum(x, ln_phi_l, present)
+
+
+def _evaluate(model, sa, bi, present, beta, x, y, ln_k=None) -> _Eval:
     liq = phase_state(model, x, sa, bi)
     vap = phase_state(model, y, sa, bi)
     ln_k_next = liq.ln_phi - vap.ln_phi
     with np.errstate(divide="ignore", invalid="ignore"):
-        if ln_k_for_residual is None:
-            ln_k_for_residual = np.log(np.where(present, y, 1.0) / np.where(present, x, 1.0))
-        r = np.where(present, ln_k_for_residual - ln_k_next, 0.0)
+        if ln_k is None:
+            ln_k = np.log(np.where(present, y, 1.0) / np.where(present, x, 1.0))
+        r = np.where(present, ln_k - ln_k_next, 0.0)
         residual = np.max(np.abs(r), axis=1)
-        gibbs = beta * _xlogx_sum(y, vap.ln_phi, present) + (1.0 - beta) * _xlogx_sum(
-            x, liq.ln_phi, present
-        )
-    return liq, vap, ln_k_next, residual, gibbs
+        gibbs = split_gibbs(beta, x, y, liq.ln_phi, vap.ln_phi, present)
+    ok = np.ones(beta.shape, dtype=bool)
+    return _Eval(beta, x, y, liq, vap, residual, ln_k_next, gibbs, ok)
 
 
-def _evaluate_lnk(model, sa, bi, z, present, ln_k):
+def _evaluate_lnk(model, sa, bi, z, present, ln_k) -> _Eval:
     """Phase compositions from ln K via Rachford-Rice (negative flash allowed), then the EOS."""
-    k = np.exp(ln_k)
+    with np.errstate(over="ignore"):
+        k = np.exp(ln_k)
     rr = rachford_rice(k, z)
-    beta = rr.beta
     below = rr.status == RachfordRiceStatus.ALL_K_BELOW_ONE
     above = rr.status == RachfordRiceStatus.ALL_K_ABOVE_ONE
-    beta = np.where(below, 0.0, np.where(above, 1.0, beta))
+    beta = np.where(below, 0.0, np.where(above, 1.0, rr.beta))
     with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
         x = z / (1.0 + beta[:, None] * (k - 1.0))
         x = np.where(above[:, None], z / k, x)
         y = k * x
         x = x / x.sum(axis=1, keepdims=True)
         y = y / y.sum(axis=1, keepdims=True)
-    liq, vap, ln_k_next, residual, gibbs = _evaluate_phases(
-        model, sa, bi, z, present, beta, x, y, ln_k_for_residual=ln_k
-    )
-    rr_ok = ~(below | above) & (rr.status == RachfordRiceStatus.CONVERGED)
-    return _Eval(beta, x, y, liq, vap, residual, ln_k_next, gibbs, rr_ok)
+    ev = _evaluate(model, sa, bi, present, beta, x, y, ln_k=ln_k)
+    ev.rr_ok = rr.status == RachfordRiceStatus.CONVERGED
+    return ev
+
+
+def _evaluate_v(model, sa, bi, z, present, v) -> _Eval:
+    """Phase compositions from vapour mole numbers (per mole of feed), then the EOS."""
+    l = z - v
+    vs = v.sum(axis=1)
+    ls = l.sum(axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        y = v / vs[:, None]
+        x = l / ls[:, None]
+    return _evaluate(model, sa, bi, present, vs, x, y)
 
 
 def two_phase_split(
@@ -133,8 +217,8 @@ def two_phase_split(
         Initial ln K-values (from a stability test, or a neighbour's converged answer).
     warm : bool
         A warm start: give up early (status ``NO_TWO_PHASE_ROOT`` or ``MAX_ITERATIONS``) when the
-        iteration leaves the two-phase region or does not approach convergence, so that the
-        caller can fall back to a full stability test.
+        iteration leaves the two-phase region or is slow, so that the caller falls back to a full
+        stability test.
 
     Returns
     -------
@@ -142,37 +226,7 @@ def two_phase_split(
     """
     n, nc = z.shape
     present = z > 0.0
-    status = np.full(n, FlashStatus.MAX_ITERATIONS, dtype=np.int8)
-    iterations = np.zeros(n, dtype=np.int32)
-    out_beta = np.full(n, np.nan)
-    out_x = np.full((n, nc), np.nan)
-    out_y = np.full((n, nc), np.nan)
-    out_lnk = np.full((n, nc), np.nan)
-    out_zl = np.full(n, np.nan)
-    out_zv = np.full(n, np.nan)
-    out_res = np.full(n, np.nan)
-    out_mb = np.full(n, np.nan)
-    out_g = np.full(n, np.nan)
-
-    def store(idx, ev_beta, ev_x, ev_y, liq, vap, residual, gibbs, ln_k, code):
-        out_beta[idx] = ev_beta
-        out_x[idx] = ev_x
-        out_y[idx] = ev_y
-        out_zl[idx] = liq.z
-        out_zv[idx] = vap.z
-        out_res[idx] = residual
-        out_g[idx] = gibbs
-        out_lnk[idx] = ln_k
-        zz = z[idx]
-        with np.errstate(invalid="ignore"):
-            mb = np.maximum(
-                np.abs(np.sum(ev_y - ev_x, axis=1)),
-                np.max(np.abs(zz - (1.0 - ev_beta)[:, None] * ev_x - ev_beta[:, None] * ev_y), axis=1),
-            )
-        out_mb[idx] = mb
-        status[idx] = code
-
-    # ---- successive substitution with GDEM ----
+    out = _Out(z)
     ln_k = np.array(ln_k0, dtype=float, copy=True)
     prev = np.zeros_like(ln_k)
     plain_next = np.zeros_like(ln_k)
@@ -185,69 +239,51 @@ def two_phase_split(
         if active.size == 0:
             break
         zz, pres = z[active], present[active]
-        lk = ln_k[active]
-        ev = _evaluate_lnk(model, sqrt_a[active], b_i[active], zz, pres, lk)
-        iterations[active] = it
+        ev = _evaluate_lnk(model, sqrt_a[active], b_i[active], zz, pres, ln_k[active])
+        out.iterations[active] = it
         inside = ev.rr_ok & (ev.beta > 0.0) & (ev.beta < 1.0)
 
         # GDEM safeguard: an accelerated step that raised the Gibbs energy is replaced by the
         # plain substitution step it was extrapolated from.
-        acc = accelerated[active]
-        worse = acc & inside & (ev.gibbs > gibbs_prev[active] + 1e-12 * np.abs(gibbs_prev[active]))
+        g_prev = gibbs_prev[active]
+        worse = accelerated[active] & inside & (ev.gibbs > g_prev + 1e-12 * np.abs(g_prev))
         if worse.any():
             redo = active[worse]
-            ev_r = _evaluate_lnk(model, sqrt_a[redo], b_i[redo], z[redo], present[redo], plain_next[redo])
+            ev.put(worse, _evaluate_lnk(model, sqrt_a[redo], b_i[redo], z[redo], present[redo],
+                                        plain_next[redo]))
             ln_k[redo] = plain_next[redo]
-            lk = ln_k[active]
-            _merge(ev, ev_r, worse)
             inside = ev.rr_ok & (ev.beta > 0.0) & (ev.beta < 1.0)
         accelerated[active] = False
+        lk = ln_k[active]
 
-        finite = np.isfinite(ev.residual) & np.isfinite(ev.beta) & np.all(np.isfinite(ev.ln_k_next), axis=1)
-        lk_present = np.where(pres, lk, 0.0)
-        trivial = finite & (np.max(np.abs(lk_present), axis=1) < _TRIVIAL_LNK)
+        finite = (np.isfinite(ev.residual) & np.isfinite(ev.beta)
+                  & np.all(np.isfinite(ev.ln_k_next), axis=1))
+        trivial = finite & (np.max(np.abs(np.where(pres, lk, 0.0)), axis=1) < _TRIVIAL_LNK)
         converged = finite & ~trivial & inside & (ev.residual < TOL_RESIDUAL)
         switch = finite & ~trivial & ~converged & inside & (
             (ev.residual < _SWITCH_RESIDUAL) | (it >= _SWITCH_AFTER)
         )
         outside = finite & ~trivial & ~converged & ~switch & ~inside
-        give_up = np.zeros_like(finite)
-        if warm and it >= 3:
-            give_up = outside
-        bad = ~finite
-
-        ln_k_final = np.where(pres, np.log(np.where(pres, ev.y, 1.0) / np.where(pres, ev.x, 1.0)), ev.ln_k_next)
+        give_up = outside if (warm and it >= 3) else np.zeros_like(outside)
+        last = np.full_like(finite, it == max_ss)
         for mask, code in (
             (converged, FlashStatus.CONVERGED),
             (trivial, FlashStatus.TRIVIAL_SOLUTION),
             (give_up, FlashStatus.NO_TWO_PHASE_ROOT),
-            (bad, FlashStatus.ROOT_FAILURE),
+            (~finite, FlashStatus.ROOT_FAILURE),
+            (switch, FlashStatus.MAX_ITERATIONS),  # provisional: Newton takes over
+            (last & outside & ~give_up, FlashStatus.NO_TWO_PHASE_ROOT),
+            (last & finite & ~trivial & ~converged & ~switch & ~outside, FlashStatus.MAX_ITERATIONS),
         ):
             if mask.any():
-                idx = active[mask]
-                store(idx, ev.beta[mask], ev.x[mask], ev.y[mask], _sub(ev.liq, mask), _sub(ev.vap, mask),
-                      ev.residual[mask], ev.gibbs[mask], ln_k_final[mask], code)
-        if switch.any():
-            idx = active[switch]
-            to_newton[idx] = True
-            store(idx, ev.beta[switch], ev.x[switch], ev.y[switch], _sub(ev.liq, switch),
-                  _sub(ev.vap, switch), ev.residual[switch], ev.gibbs[switch], ln_k_final[switch],
-                  FlashStatus.MAX_ITERATIONS)
-
-        keep = ~(converged | trivial | give_up | bad | switch)
-        if it == max_ss:
-            # Out of substitution steps: record the last state as not converged.
-            if keep.any():
-                idx = active[keep]
-                store(idx, ev.beta[keep], ev.x[keep], ev.y[keep], _sub(ev.liq, keep), _sub(ev.vap, keep),
-                      ev.residual[keep], ev.gibbs[keep], ln_k_final[keep],
-                      np.where(outside[keep], FlashStatus.NO_TWO_PHASE_ROOT, FlashStatus.MAX_ITERATIONS))
-            break
+                out.store(active[mask], ev, mask, code)
+        to_newton[active[switch]] = True
+        keep = ~(converged | trivial | give_up | ~finite | switch | last)
         idx = active[keep]
         nxt = ev.ln_k_next[keep]
         cur = lk[keep]
         gibbs_prev[idx] = np.where(inside[keep], ev.gibbs[keep], np.inf)
-        if it % _GDEM_EVERY == 0 and it >= 3:
+        if it % _GDEM_EVERY == 0:
             acc_step = _gdem(nxt, cur, prev[idx])
             changed = np.any(acc_step != nxt, axis=1) & inside[keep]
             plain_next[idx] = nxt
@@ -257,140 +293,158 @@ def two_phase_split(
         ln_k[idx] = nxt
         active = idx
 
-    # ---- Newton on the fugacity residual in vapour mole numbers ----
-    newton_idx = np.flatnonzero(to_newton)
-    if newton_idx.size:
-        _newton(model, sqrt_a, b_i, z, present, newton_idx, iterations, store,
-                out_beta, out_x, out_y, out_res, out_g, warm)
-
-    return SplitResult(
-        status=status, beta=out_beta, x=out_x, y=out_y, ln_k=out_lnk, z_liquid=out_zl,
-        z_vapour=out_zv, iterations=iterations, residual=out_res, material_balance=out_mb,
-        gibbs=out_g,
-    )
+    cells = np.flatnonzero(to_newton)
+    if cells.size:
+        v0 = np.where(present[cells], out.beta[cells, None] * out.y[cells], 0.0)
+        nr = newton_split(model, sqrt_a[cells], b_i[cells], z[cells], v0)
+        _copy_into(out, cells, nr)
+    return out.result()
 
 
-def _sub(state: PhaseState, mask) -> PhaseState:
-    return PhaseState(z=state.z[mask], ln_phi=state.ln_phi[mask], a=state.a[mask], b=state.b[mask],
-                      psi=state.psi[mask])
-
-
-def _merge(ev: _Eval, other: _Eval, mask) -> None:
-    for name in ("beta", "x", "y", "residual", "ln_k_next", "gibbs", "rr_ok"):
-        getattr(ev, name)[mask] = getattr(other, name)
-    for ph in ("liq", "vap"):
-        a, b = getattr(ev, ph), getattr(other, ph)
-        for f in ("z", "ln_phi", "a", "b", "psi"):
-            getattr(a, f)[mask] = getattr(b, f)
+def _copy_into(out: _Out, cells, res: SplitResult) -> None:
+    out.status[cells] = res.status
+    out.iterations[cells] += res.iterations
+    for name, src in (("beta", res.beta), ("x", res.x), ("y", res.y), ("ln_k", res.ln_k),
+                      ("z_liquid", res.z_liquid), ("z_vapour", res.z_vapour),
+                      ("residual", res.residual), ("balance", res.material_balance),
+                      ("gibbs", res.gibbs)):
+        getattr(out, name)[cells] = src
 
 
 def _gdem(x_new, x_cur, x_prev):
+    """Crowe-Nishio dominant-eigenvalue extrapolation of a fixed-point sequence."""
     d1 = x_new - x_cur
     d0 = x_cur - x_prev
     num = np.sum(d1 * d1, axis=1)
     den = np.sum(d0 * d1, axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
         lam = num / den
-    ok = np.isfinite(lam) & (lam > 0.0) & (lam < 0.95)
-    factor = np.where(ok, lam / (1.0 - lam), 0.0)
+        ok = np.isfinite(lam) & (lam > 0.0) & (lam < 0.95)
+        factor = np.where(ok, lam / (1.0 - lam), 0.0)
     return x_new + factor[:, None] * d1
 
 
-def _newton(model, sqrt_a, b_i, z, present, idx0, iterations, store, out_beta, out_x, out_y,
-            out_res, out_g, warm):
-    nc = z.shape[1]
+def newton_split(
+    model: CubicModel,
+    sqrt_a: NDArray[np.float64],
+    b_i: NDArray[np.float64],
+    z: NDArray[np.float64],
+    v0: NDArray[np.float64],
+    *,
+    robust: bool = False,
+) -> SplitResult:
+    """Minimise the Gibbs energy of the split by Newton's method in vapour mole numbers.
+
+    Parameters
+    ----------
+    v0 : ndarray, shape (n, nc)
+        Initial vapour mole numbers per mole of feed, ``0 < v0_i < z_i`` for present components.
+    robust : bool
+        Shift the scaled Hessian to be positive definite (a descent method from any start).
+
+    Returns
+    -------
+    SplitResult
+        ``iterations`` counts the Newton iterations (each Gibbs-energy halving included).
+    """
+    n, nc = z.shape
+    present = z > 0.0
+    out = _Out(z)
     eye = np.eye(nc)
-    v = out_beta[idx0, None] * out_y[idx0]
-    v = np.where(present[idx0], v, 0.0)
-    best_res = out_res[idx0].copy()
-    gibbs = out_g[idx0].copy()
-    active = np.arange(idx0.size)
-    stall = np.zeros(idx0.size, dtype=np.int8)
-    vv = v
-    for _ in range(_MAX_NEWTON):
+    v = np.where(present, v0, 0.0)
+    acc_v = v.copy()
+    acc_g = np.full(n, np.inf)
+    step = np.zeros_like(v)
+    tau = np.ones(n)
+    halvings = np.zeros(n, dtype=np.int8)
+    best = np.full(n, np.inf)
+    stall = np.zeros(n, dtype=np.int8)
+    active = np.arange(n)
+    max_iter = (_MAX_NEWTON_ROBUST if robust else _MAX_NEWTON) + _MAX_HALVINGS
+    for _ in range(max_iter):
         if active.size == 0:
             break
-        cells = idx0[active]
-        zz, pres = z[cells], present[cells]
-        sa, bi = sqrt_a[cells], b_i[cells]
-        va = vv[active]
-        la = zz - va
-        vsum = va.sum(axis=1)
-        lsum = la.sum(axis=1)
-        y = va / vsum[:, None]
-        x = la / lsum[:, None]
-        liq, vap, ln_k_next, residual, g_now = _evaluate_phases(model, sa, bi, zz, pres, vsum, x, y)
-        iterations[cells] += 1
-        finite = np.isfinite(residual)
-        # Stalled (no longer gaining) or reached the target: stop.
-        improving = residual < 0.5 * best_res[active]
-        stall[active] = np.where(improving, 0, stall[active] + 1)
-        best_res[active] = np.fmin(best_res[active], residual)
-        done = ~finite | (residual < _NEWTON_TARGET) | (stall[active] >= 3)
-        # Record every evaluated state that is the best so far.
-        better = finite & (residual <= best_res[active])
+        pres = present[active]
+        ev = _evaluate_v(model, sqrt_a[active], b_i[active], z[active], pres, v[active])
+        out.iterations[active] += 1
+        finite = np.isfinite(ev.residual) & np.isfinite(ev.gibbs)
+        g_ok = ev.gibbs <= acc_g[active] + 1e-12 * np.maximum(1.0, np.abs(acc_g[active]))
+        accept = finite & g_ok
+        # Rejected: halve the step back towards the last accepted point.
+        reject = ~accept & (halvings[active] < _MAX_HALVINGS) & np.isfinite(acc_g[active])
+        exhausted = ~accept & ~reject
+        if reject.any():
+            r = active[reject]
+            halvings[r] += 1
+            tau[r] *= 0.5
+            v[r] = acc_v[r] + tau[r, None] * step[r]
+        # Accepted points: record when best so far, test convergence.
+        improving = accept & (ev.residual < 0.5 * best[active])
+        stall[active] = np.where(accept, np.where(improving, 0, stall[active] + 1), stall[active])
+        better = accept & (ev.residual <= best[active])
         if better.any():
-            m = better
-            ln_k = np.where(pres[m], np.log(np.where(pres[m], y[m], 1.0) / np.where(pres[m], x[m], 1.0)),
-                            ln_k_next[m])
-            code = np.where(residual[m] < TOL_RESIDUAL, FlashStatus.CONVERGED, FlashStatus.MAX_ITERATIONS)
-            store(cells[m], vsum[m], x[m], y[m], _sub(liq, m), _sub(vap, m), residual[m], g_now[m],
-                  ln_k, code)
-        keep = ~done
-        if not keep.any():
-            break
-        k = keep
-        c = cells[k]
-        dl = ln_phi_derivatives(model, _sub(liq, k), sa[k], bi[k])
-        dv = ln_phi_derivatives(model, _sub(vap, k), sa[k], bi[k])
-        pk = pres[k]
-        xk, yk = x[k], y[k]
-        vk, lk = vsum[k][:, None], lsum[k][:, None]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            diag = np.where(pk, 1.0 / (vk * np.where(pk, yk, 1.0)) + 1.0 / (lk * np.where(pk, xk, 1.0)), 1.0)
-        jac = (dv - 1.0) / vk[:, :, None] + (dl - 1.0) / lk[:, :, None]
-        jac = jac * (pk[:, :, None] & pk[:, None, :])
-        jac = jac + diag[:, :, None] * eye
-        grad = np.where(pk, np.log(np.where(pk, yk, 1.0)) + vap.ln_phi[k]
-                        - np.log(np.where(pk, xk, 1.0)) - liq.ln_phi[k], 0.0)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            scale = np.where(pk, np.sqrt(np.where(pk, va[k] * la[k] / np.where(pk, zz[k], 1.0), 1.0)), 1.0)
-        js = scale[:, :, None] * jac * scale[:, None, :]
-        try:
+            code = np.where(ev.residual[better] < TOL_RESIDUAL, FlashStatus.CONVERGED,
+                            FlashStatus.MAX_ITERATIONS)
+            out.store(active[better], ev, better, code)
+            best[active[better]] = ev.residual[better]
+        lnk = np.where(pres, np.log(np.where(pres, ev.y, 1.0) / np.where(pres, ev.x, 1.0)), 0.0)
+        trivial = accept & (np.max(np.abs(lnk), axis=1) < _TRIVIAL_LNK)
+        if trivial.any():
+            out.store(active[trivial], ev, trivial, FlashStatus.TRIVIAL_SOLUTION)
+        # "Stalled" only counts near convergence, where rounding limits further gains; far from
+        # it the residual may rise while the Gibbs energy falls.
+        stalled = (stall[active] >= 3) & (best[active] < 1e-8)
+        done = exhausted | trivial | (accept & ((ev.residual < _NEWTON_TARGET) | stalled))
+        go = accept & ~done
+        if go.any():
+            c = active[go]
+            e = ev.take(go)
+            step_c = _newton_direction(model, sqrt_a[c], b_i[c], z[c], present[c], v[c], e, eye,
+                                       robust)
+            vc = v[c]
+            lc = z[c] - vc
+            pc = present[c]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                lim_lo = np.where(pc & (step_c < 0.0), vc / -step_c, np.inf)
+                lim_hi = np.where(pc & (step_c > 0.0), lc / step_c, np.inf)
+            t = np.minimum(1.0, 0.95 * np.minimum(lim_lo.min(axis=1), lim_hi.min(axis=1)))
+            step_c = np.where(np.isfinite(step_c), step_c, 0.0)
+            acc_v[c] = vc
+            acc_g[c] = e.gibbs
+            step[c] = step_c
+            tau[c] = t
+            halvings[c] = 0
+            v[c] = vc + t[:, None] * step_c
+        active = active[~done]
+    return out.result()
+
+
+def _newton_direction(model, sa, bi, z, present, v, ev: _Eval, eye, robust):
+    dl = ln_phi_derivatives(model, ev.liq, sa, bi)
+    dv = ln_phi_derivatives(model, ev.vap, sa, bi)
+    vs = ev.beta[:, None]
+    ls = 1.0 - vs
+    x, y = ev.x, ev.y
+    with np.errstate(divide="ignore", invalid="ignore"):
+        diag = np.where(present, 1.0 / (vs * np.where(present, y, 1.0))
+                        + 1.0 / (ls * np.where(present, x, 1.0)), 1.0)
+        jac = (dv - 1.0) / vs[:, :, None] + (dl - 1.0) / ls[:, :, None]
+        jac = jac * (present[:, :, None] & present[:, None, :]) + diag[:, :, None] * eye
+        grad = np.where(present, np.log(np.where(present, y, 1.0)) + ev.vap.ln_phi
+                        - np.log(np.where(present, x, 1.0)) - ev.liq.ln_phi, 0.0)
+        l = z - v
+        scale = np.where(present, np.sqrt(np.where(present, v * l / np.where(present, z, 1.0), 1.0)), 1.0)
+    js = scale[:, :, None] * jac * scale[:, None, :]
+    if robust:
+        ok = np.all(np.isfinite(js), axis=(1, 2))
+        lam_min = np.full(js.shape[0], 1.0)
+        if ok.any():
+            lam_min[ok] = np.linalg.eigvalsh(js[ok])[:, 0]
+        shift = np.where(lam_min < _MIN_EIG, _MIN_EIG - lam_min + 1e-3, 0.0)
+        js = js + shift[:, None, None] * eye
+    try:
+        with np.errstate(invalid="ignore", over="ignore"):
             step = -np.linalg.solve(js, (scale * grad)[:, :, None])[:, :, 0] * scale
-        except np.linalg.LinAlgError:
-            step = np.full_like(grad, np.nan)
-        # Keep 0 < v_i < z_i.
-        with np.errstate(divide="ignore", invalid="ignore"):
-            lim_lo = np.where(pk & (step < 0.0), va[k] / -step, np.inf)
-            lim_hi = np.where(pk & (step > 0.0), la[k] / step, np.inf)
-        tau = np.minimum(1.0, 0.95 * np.minimum(lim_lo.min(axis=1), lim_hi.min(axis=1)))
-        step = np.where(np.isfinite(step), step, 0.0)
-        new_v = va[k] + tau[:, None] * step
-        # Halve steps that raise the Gibbs energy (checked on the next evaluation cheaply).
-        new_v = _gibbs_line_search(model, sa[k], bi[k], zz[k], pk, va[k], new_v, g_now[k])
-        vv[active[k]] = new_v
-        active = active[k]
-
-
-def _gibbs_line_search(model, sa, bi, z, present, v_old, v_new, g_old, max_halvings=4):
-    v = v_new
-    todo = np.arange(v.shape[0])
-    for _ in range(max_halvings):
-        if todo.size == 0:
-            break
-        vt = v[todo]
-        lt = z[todo] - vt
-        vs, ls = vt.sum(axis=1), lt.sum(axis=1)
-        x = lt / ls[:, None]
-        y = vt / vs[:, None]
-        liq = phase_state(model, x, sa[todo], bi[todo])
-        vap = phase_state(model, y, sa[todo], bi[todo])
-        g = vs * _xlogx_sum(y, vap.ln_phi, present[todo]) + ls * _xlogx_sum(x, liq.ln_phi, present[todo])
-        worse = ~(g <= g_old[todo] + 1e-10 * np.maximum(1.0, np.abs(g_old[todo])))
-        if not worse.any():
-            break
-        w = todo[worse]
-        v[w] = 0.5 * (v[w] + v_old[w])
-        todo = w
-    return v
+    except np.linalg.LinAlgError:
+        step = np.full_like(grad, np.nan)
+    return step

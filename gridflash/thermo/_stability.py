@@ -54,6 +54,10 @@ class StabilityResult:
         False where a trial ran out of iterations or met a root failure without proving
         instability.
     root_failure : ndarray of bool, shape (n,)
+    trials : ndarray, shape (2, n, nc)
+        Final trial-phase compositions ``w`` (vapour-like, liquid-like).
+    trial_tm : ndarray, shape (2, n)
+        ``tm`` of each trial at its final point.
     """
 
     stable: NDArray[np.bool_]
@@ -62,6 +66,8 @@ class StabilityResult:
     iterations: NDArray[np.int32]
     conclusive: NDArray[np.bool_]
     root_failure: NDArray[np.bool_]
+    trials: NDArray[np.float64]
+    trial_tm: NDArray[np.float64]
 
 
 def stability_test(
@@ -74,6 +80,7 @@ def stability_test(
     *,
     tol: float = _TOL,
     maxiter: int = _MAXITER,
+    early_exit: bool = True,
 ) -> StabilityResult:
     """Test every feed in a batch for phase stability.
 
@@ -88,6 +95,10 @@ def stability_test(
         ln fugacity coefficients of the feed (min-Gibbs root).
     ln_k_wilson : ndarray, shape (n, nc)
         Initial ln K-values (Wilson's correlation).
+    early_exit : bool
+        Stop a trial as soon as ``tm`` is clearly negative (the feed is then proven unstable).
+        Without it every trial is iterated to its stationary point, which gives a better
+        initial phase for a difficult split.
 
     Returns
     -------
@@ -105,7 +116,9 @@ def stability_test(
     sa = np.tile(sqrt_a, (2, 1))
     bb = np.tile(b_i, (2, 1))
     ln_ks0 = np.concatenate([ln_k_wilson, -ln_k_wilson])
-    ln_ks, tm, iters, outcome = _iterate(model, sa, bb, zz, lnphi_zz, present, ln_ks0, tol, maxiter)
+    ln_ks, tm, iters, outcome = _iterate(
+        model, sa, bb, zz, lnphi_zz, present, ln_ks0, tol, maxiter, early_exit
+    )
 
     # outcome: 0 stable (trivial or tm >= 0 at a stationary point), 1 unstable, 2 inconclusive,
     # 3 root failure
@@ -132,7 +145,12 @@ def stability_test(
     )
     seed = np.where(unstable[:, None], seed, np.nan)
     tpd = np.fmin(tm_v, tm_l)
+    with np.errstate(over="ignore", invalid="ignore"):
+        w_all = zz * np.exp(ln_ks)
+        w_all = w_all / w_all.sum(axis=1, keepdims=True)
     return StabilityResult(
+        trials=w_all.reshape(2, n, nc),
+        trial_tm=tm.reshape(2, n),
         stable=~unstable,
         tpd=tpd,
         ln_k_seed=seed,
@@ -142,7 +160,7 @@ def stability_test(
     )
 
 
-def _iterate(model, sqrt_a, b_i, z, ln_phi_z, present, ln_ks0, tol, maxiter):
+def _iterate(model, sqrt_a, b_i, z, ln_phi_z, present, ln_ks0, tol, maxiter, early_exit):
     """Iterate every trial to a stationary point of tm, never accepting a step that raises tm.
 
     A step that raises ``tm`` (substitution can cycle where the lowest-Gibbs root of the trial
@@ -186,7 +204,7 @@ def _iterate(model, sqrt_a, b_i, z, ln_phi_z, present, ln_ks0, tol, maxiter):
         accept = ~bad & ~rise
         tm[active] = np.where(accept, tm_a, tm[active])
 
-        early = accept & (tm_a < _TM_EARLY_EXIT)
+        early = accept & (tm_a < _TM_EARLY_EXIT) & early_exit
         stationary = accept & ~early & (res < tol)
         trivial = accept & ~early & ~stationary & (tm_a >= 0.0) & (
             np.sum(ks * ks, axis=1) < _TRIVIAL
