@@ -2,6 +2,15 @@
 
 from __future__ import annotations
 
+from ._characterisation import (
+    CharacterisedFluid,
+    FluidAnalysis,
+    PlusFraction,
+    ScnFraction,
+    ScnTable,
+    characterise,
+)
+from ._characterisation_report import fluid_table_text, fluid_table_toml
 from ._components import Component, builtin_component, builtin_names
 from ._cubic import CubicModel, cubic_roots, phase_state, reduced_parameters
 from ._flash import flash
@@ -21,6 +30,14 @@ from ._volume_shift import peneloux_shift
 
 __all__ = [
     "EOS_NAMES",
+    "CharacterisedFluid",
+    "FluidAnalysis",
+    "PlusFraction",
+    "ScnFraction",
+    "ScnTable",
+    "characterise",
+    "fluid_table_text",
+    "fluid_table_toml",
     "Component",
     "CubicModel",
     "FlashResult",
