@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from ._errors import ConfigError, GridflashError, InputError, StoreError
 from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
+from ._table import open_table
 
 __version__ = "0.1.0"
 
@@ -17,5 +18,6 @@ __all__ = [
     "Mixture",
     "StoreError",
     "flash",
+    "open_table",
     "__version__",
 ]
