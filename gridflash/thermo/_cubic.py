@@ -261,7 +261,9 @@ def phase_state(
     eq. 21 for d1,2 = 1 +- sqrt 2).
     """
     d1, d2 = model.delta1, model.delta2
-    s = (sqrt_a * x) @ model.one_minus_k
+    # einsum rather than matmul: BLAS blocking makes a row's rounding depend on the batch size,
+    # and a cell's answer must not depend on which other cells share its batch.
+    s = np.einsum("ij,jk->ik", sqrt_a * x, model.one_minus_k)
     psi = sqrt_a * s
     a = np.einsum("ij,ij->i", x, psi)
     b = np.einsum("ij,ij->i", x, b_i)

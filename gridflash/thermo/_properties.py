@@ -20,6 +20,11 @@ __all__ = [
 _ATM = 101325.0  # Pa, exact
 
 
+def _dot(x, v):
+    """Row-wise ``x @ v`` whose rounding does not depend on the number of rows (unlike BLAS)."""
+    return np.einsum("ij,j->i", x, v)
+
+
 def wilson_ln_k(tc, pc, omega, pressure, temperature):
     """Wilson's K-value estimate ``ln K_i = ln(Pc_i / P) + 5.373 (1 + w_i)(1 - Tc_i / T)``.
 
@@ -99,11 +104,11 @@ def lbc_viscosity(tc, pc, mw, vc, temperature, x, molar_density):
     mu_i = stiel_thodos_viscosity(tc, pc, mw, temperature) * 1e3  # cP
     sq = np.sqrt(mw)
     mu_star = (x * mu_i * sq).sum(axis=1) / (x * sq).sum(axis=1)
-    tpc = x @ tc
-    ppc = x @ pc
-    mwm = x @ mw
+    tpc = _dot(x, tc)
+    ppc = _dot(x, pc)
+    mwm = _dot(x, mw)
     xi = _xi(tpc, ppc, mwm)
-    rho_r = molar_density * (x @ vc)
+    rho_r = molar_density * _dot(x, vc)
     poly = 0.1023 + rho_r * (0.023364 + rho_r * (0.058533 + rho_r * (-0.040758 + rho_r * 0.0093324)))
     mu = mu_star + (poly**4 - 1e-4) / xi
     return mu * 1e-3
@@ -120,9 +125,9 @@ def phase_properties(
     """
     p = np.asarray(pressure, dtype=float)
     t = np.asarray(temperature, dtype=float)
-    v = z_factor * R * t / p - x @ mixture.volume_shift
+    v = z_factor * R * t / p - _dot(x, mixture.volume_shift)
     molar_density = 1.0 / v
-    mw = x @ mixture.mw
+    mw = _dot(x, mixture.mw)
     mass_density = mw * 1e-3 * molar_density
     mu = lbc_viscosity(mixture.tc, mixture.pc, mixture.mw, mixture.vc, t, x, molar_density)
     return PhaseProperties(

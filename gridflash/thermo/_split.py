@@ -24,6 +24,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._cubic import CubicModel, PhaseState, ln_phi_derivatives, phase_state
+from ._linalg import solve_cells
 from ._rachford_rice import RachfordRiceStatus, rachford_rice
 from ._result import FlashStatus
 
@@ -35,6 +36,7 @@ _NEWTON_TARGET = 1e-12  # Newton keeps going below TOL_RESIDUAL while it still g
 _SWITCH_RESIDUAL = 1e-5  # substitution hands over to Newton below this residual...
 _SWITCH_AFTER = 25  # ...or after this many substitution steps
 _GDEM_EVERY = 5
+_NEWTON_MIN_PHASE = 1e-6  # smallest phase amount for which substitution hands over to Newton
 _TRIVIAL_LNK = 1e-5  # max |ln K| below this: the phases have become identical
 _MAX_SS = 200
 _MAX_NEWTON = 60
@@ -260,7 +262,10 @@ def two_phase_split(
                   & np.all(np.isfinite(ev.ln_k_next), axis=1))
         trivial = finite & (np.max(np.abs(np.where(pres, lk, 0.0)), axis=1) < _TRIVIAL_LNK)
         converged = finite & ~trivial & inside & (ev.residual < TOL_RESIDUAL)
-        switch = finite & ~trivial & ~converged & inside & (
+        # Newton works on both phases' mole numbers; with one phase almost absent it is
+        # ill-conditioned, so such splits are left to substitution (with Rachford-Rice exact).
+        newton_ok = inside & (np.minimum(ev.beta, 1.0 - ev.beta) > _NEWTON_MIN_PHASE)
+        switch = finite & ~trivial & ~converged & newton_ok & (
             (ev.residual < _SWITCH_RESIDUAL) | (it >= _SWITCH_AFTER)
         )
         outside = finite & ~trivial & ~converged & ~switch & ~inside
@@ -442,9 +447,5 @@ def _newton_direction(model, sa, bi, z, present, v, ev: _Eval, eye, robust):
             lam_min[ok] = np.linalg.eigvalsh(js[ok])[:, 0]
         shift = np.where(lam_min < _MIN_EIG, _MIN_EIG - lam_min + 1e-3, 0.0)
         js = js + shift[:, None, None] * eye
-    try:
-        with np.errstate(invalid="ignore", over="ignore"):
-            step = -np.linalg.solve(js, (scale * grad)[:, :, None])[:, :, 0] * scale
-    except np.linalg.LinAlgError:
-        step = np.full_like(grad, np.nan)
+    step = -solve_cells(js, scale * grad) * scale
     return step

@@ -23,6 +23,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ._cubic import CubicModel, PhaseState, ln_phi_derivatives, phase_state
+from ._linalg import solve_cells
 
 __all__ = ["StabilityResult", "stability_test"]
 
@@ -277,11 +278,7 @@ def _newton_step(model, st, sqrt_a, b_i, z, present, ks, r, w_moles, sum_w):
     nc = z.shape[1]
     h = h + np.eye(nc)
     g = sw * r
-    with np.errstate(invalid="ignore"):
-        try:
-            d_alpha = -np.linalg.solve(h, g[:, :, None])[:, :, 0]
-        except np.linalg.LinAlgError:
-            d_alpha = np.full_like(g, np.nan)
+    d_alpha = -solve_cells(h, g)
     alpha = 2.0 * sw
     # Keep alpha positive: shorten the step where it would cross zero.
     with np.errstate(divide="ignore", invalid="ignore"):
