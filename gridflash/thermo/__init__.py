@@ -24,7 +24,7 @@ from ._properties import (
 )
 from ._rachford_rice import RachfordRiceResult, RachfordRiceStatus, rachford_rice
 from ._result import FlashResult, FlashStatus, PhaseLabel, PhaseProperties
-from ._saturation import pure_vapour_pressure
+from ._saturation import pure_vapour_pressure, saturation_pressure
 from ._stability import StabilityResult, stability_test
 from ._volume_shift import peneloux_shift
 
@@ -59,6 +59,7 @@ __all__ = [
     "phase_state",
     "pure_vapour_pressure",
     "rachford_rice",
+    "saturation_pressure",
     "reduced_parameters",
     "stability_test",
     "stiel_thodos_viscosity",

@@ -7,7 +7,7 @@ from numpy.typing import NDArray
 
 from ._cubic import R, CubicModel, cubic_roots
 
-__all__ = ["pure_vapour_pressure"]
+__all__ = ["pure_vapour_pressure", "saturation_pressure"]
 
 _TOL = 1e-12
 _MAXITER = 100
@@ -77,3 +77,70 @@ def pure_vapour_pressure(
         ln_p = np.where(conv | ~below_tc, ln_p, ln_p + step)
     p = np.where(conv, np.exp(ln_p), np.nan)
     return p, zl, zv, conv
+
+
+def saturation_pressure(mixture, temperature, z, p_two_phase, p_one_phase, *, rtol=1e-10,
+                        maxiter=80):
+    """Bubble- or dew-point pressure of each feed between a two-phase and a one-phase pressure.
+
+    The boundary is located by bisection in ``ln P`` on the phase count of the full flash
+    (stability test included), so it is the pressure at which :func:`gridflash.flash` itself
+    changes its answer; the kind of point follows from the vapour fraction just inside the
+    two-phase region (near 0: bubble point, near 1: dew point).
+
+    Parameters
+    ----------
+    mixture : Mixture
+    temperature : ndarray, shape (n,)
+        K.
+    z : ndarray, shape (n, nc)
+    p_two_phase, p_one_phase : ndarray, shape (n,)
+        Pressures (Pa) at which the flash finds two phases and one phase respectively.
+    rtol : float
+        Relative width of the final bracket.
+
+    Returns
+    -------
+    pressure : ndarray, shape (n,)
+        Pa; NaN where the brackets were not a two-phase / one-phase pair.
+    kind : ndarray of int8, shape (n,)
+        1 bubble point, 2 dew point, 3 vapour pressure of a single-component feed (where the
+        brackets are ignored: a pure component's two-phase region is a line), 0 unknown.
+    incipient : ndarray, shape (n, nc)
+        Composition of the incipient phase at the inside end of the final bracket.
+    """
+    from ._flash import flash  # the flash is the oracle; imported here to avoid a cycle
+
+    t = np.asarray(temperature, dtype=float)
+    zz = np.asarray(z, dtype=float)
+    lo = np.log(np.asarray(p_two_phase, dtype=float))  # inside (two-phase) end
+    hi = np.log(np.asarray(p_one_phase, dtype=float))  # outside (one-phase) end
+    n = t.shape[0]
+    check = flash(mixture, np.exp(np.concatenate([lo, hi])), np.concatenate([t, t]),
+                  np.concatenate([zz, zz]))
+    valid = (check.phase_count[:n] == 2) & (check.phase_count[n:] == 1)
+    valid &= check.converged[:n] & check.converged[n:] & (np.sum(zz > 0.0, axis=1) > 1)
+    for _ in range(maxiter):
+        width = np.abs(hi - lo)
+        todo = valid & (width > rtol)
+        if not todo.any():
+            break
+        mid = 0.5 * (lo[todo] + hi[todo])
+        r = flash(mixture, np.exp(mid), t[todo], zz[todo])
+        two = r.phase_count == 2
+        idx = np.flatnonzero(todo)
+        lo[idx[two]] = mid[two]
+        hi[idx[~two]] = mid[~two]
+    inside = flash(mixture, np.exp(lo), t, zz)
+    beta = inside.vapour_fraction
+    kind = np.where(valid & (inside.phase_count == 2), np.where(beta < 0.5, 1, 2), 0).astype(np.int8)
+    incipient = np.where((kind == 1)[:, None], inside.y, np.where((kind == 2)[:, None], inside.x, np.nan))
+    pressure = np.where(valid, np.exp(0.5 * (lo + hi)), np.nan)
+    pure = np.sum(zz > 0.0, axis=1) == 1
+    if pure.any():
+        comp = np.argmax(zz[pure], axis=1)
+        p_pure, _, _, ok = pure_vapour_pressure(mixture.model, comp, t[pure])
+        pressure[pure] = np.where(ok, p_pure, np.nan)
+        kind[pure] = np.where(ok, 3, 0)
+        incipient[pure] = np.where(ok[:, None], zz[pure], np.nan)
+    return pressure, kind, incipient
