@@ -1,0 +1,192 @@
+"""The command line, end to end: ``gridflash run`` and ``gridflash inspect``."""
+
+from __future__ import annotations
+
+import io
+import re
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+import xarray as xr
+import zarr
+from click.testing import CliRunner
+
+from gridflash._config import load_config
+from gridflash.cli import _ProgressLine, cli
+from gridflash._runner import Progress
+
+from ._run_helpers import direct_flash, write_config
+
+
+def invoke(*args: str):
+    return CliRunner().invoke(cli, [str(a) for a in args], catch_exceptions=False)
+
+
+@pytest.fixture(scope="module")
+def cold_store(tmp_path_factory):
+    """The small grid run through the CLI without warm starts: (config path, store path)."""
+    folder = tmp_path_factory.mktemp("cli")
+    config = write_config(folder)
+    result = invoke("run", config, "--no-warm-start", "--output", folder / "cold.zarr")
+    assert result.exit_code == 0, result.output
+    return config, folder / "cold.zarr", result
+
+
+def test_run_end_to_end(cold_store):
+    """The store opens with plain xarray.open_zarr; every cell equals a direct flash call.
+
+    Reference: gridflash.flash on each cell (all cells in one call, which is elementwise).
+    """
+    config, path, result = cold_store
+    assert result.stderr == ""  # no progress line when stderr is not a terminal
+    assert "4 computed, 0 reused" in result.stdout
+    ds = xr.open_zarr(path)
+    assert ds.phase_count.shape == (6, 4, 5)
+    assert ds.liquid_composition.dims == ("pressure", "temperature", "mixing_ratio", "component")
+    assert ds.pressure.attrs["units"] == "Pa" and ds.temperature.attrs["units"] == "K"
+    # 20 bar .. 270 bar and 40 degC .. 160 degC (exact SI conversions)
+    assert ds.pressure.values[[0, -1]].tolist() == [2.0e6, 2.7e7]
+    assert ds.temperature.values[[0, -1]] == pytest.approx([313.15, 433.15], abs=1e-12)
+    assert ds.vapour_density.attrs["units"] == "kg m-3"
+    assert ds.attrs["run_state"] == "complete" and ds.attrs["warm_start"] == 0
+    spec = load_config(config)
+    ref = direct_flash(ds, spec.fluid.mixture())
+    n = ref.phase_count.size
+    checks = {
+        "phase_count": ref.phase_count, "vapour_fraction": ref.vapour_fraction,
+        "liquid_composition": ref.x, "vapour_composition": ref.y, "k_value": ref.K,
+        "converged": ref.converged, "iterations": ref.iterations, "status": ref.status,
+        "residual": ref.residual, "tpd": ref.tpd, "liquid_density": ref.liquid.mass_density,
+        "vapour_viscosity": ref.vapour.viscosity, "liquid_z_factor": ref.liquid.z_factor,
+    }
+    for name, expected in checks.items():
+        got = ds[name].values.reshape(n, -1).squeeze()
+        assert np.array_equal(got, expected, equal_nan=got.dtype.kind == "f"), name
+    counts = re.search(r"cells: (\d+) two-phase, (\d+) single-phase, (\d+) unconverged",
+                       result.stdout)
+    assert counts and int(counts[1]) == int((ref.phase_count == 2).sum())
+    assert int(counts[3]) == int((~ref.converged).sum())
+
+
+def test_existing_store_refused_in_one_line(cold_store):
+    config, path, _ = cold_store
+    result = invoke("run", config, "--output", path, "--no-warm-start")
+    assert result.exit_code == 1
+    assert result.stdout == ""
+    assert result.stderr.count("\n") == 1 and "Traceback" not in result.stderr
+    assert "already exists; use --resume" in result.stderr
+
+
+def test_resume_of_complete_store_reuses_everything(cold_store):
+    config, path, _ = cold_store
+    result = invoke("run", config, "--output", path, "--no-warm-start", "--resume")
+    assert result.exit_code == 0, result.stderr
+    assert "0 computed, 4 reused" in result.stdout
+
+
+def test_resume_with_other_warm_start_refused(cold_store):
+    config, path, _ = cold_store
+    result = invoke("run", config, "--output", path, "--resume")
+    assert result.exit_code == 1
+    assert "warm starts off" in result.stderr and result.stderr.count("\n") == 1
+
+
+@pytest.mark.parametrize(
+    ("args", "code", "message"),
+    [
+        (["run", "{config}", "--resume", "--overwrite"], 2, "exclude each other"),
+        (["run", "{config}", "--workers", "0"], 2, "Invalid value for '--workers'"),
+        (["run", "{folder}/missing.toml"], 1, "cannot read config file"),
+        (["run", "{folder}/bad.toml"], 1, "pressure.count"),
+        (["inspect", "{folder}/missing.zarr"], 1, "does not exist"),
+        (["frobnicate"], 2, "No such command"),
+    ],
+)
+def test_errors(tmp_path, args, code, message):
+    config = write_config(tmp_path)
+    bad = config.read_text().replace("count = 6", "count = -6")
+    (tmp_path / "bad.toml").write_text(bad)
+    result = invoke(*(a.format(config=config, folder=tmp_path) for a in args))
+    assert result.exit_code == code
+    assert message in result.stderr
+    assert "Traceback" not in result.stderr
+    if code == 1:
+        assert result.stderr.count("\n") == 1
+    assert not (tmp_path / "out.zarr").exists()
+
+
+def test_quiet_prints_nothing(tmp_path):
+    config = write_config(tmp_path)
+    result = invoke("run", config, "--quiet")
+    assert result.exit_code == 0 and result.stdout == "" and result.stderr == ""
+    assert (tmp_path / "out.zarr" / "zarr.json").exists()
+
+
+def test_help_has_examples():
+    for args in (["--help"], ["run", "--help"], ["inspect", "--help"]):
+        result = invoke(*args)
+        assert result.exit_code == 0
+        assert "Examples:" in result.stdout
+    assert "--scheduler ADDRESS" in invoke("run", "--help").stdout
+
+
+def test_inspect(cold_store, tmp_path):
+    config, path, _ = cold_store
+    ds = xr.open_zarr(path)
+    two = int((ds.phase_count == 2).sum())
+    result = invoke("inspect", path)
+    assert result.exit_code == 0, result.stderr
+    out = result.stdout
+    assert "run state: complete" in out and "4 of 4 chunks complete" in out
+    assert re.search(r"pressure\s+6 points\s+2e\+06 \.\. 2\.7e\+07 Pa", out)
+    assert re.search(rf"two-phase\s+{two}\b", out)
+    assert "convergence: 0 unconverged cell(s)" in out
+    # an unconverged cell is listed with its coordinates and status name
+    copy = tmp_path / "flagged.zarr"
+    import shutil
+
+    shutil.copytree(path, copy)
+    group = zarr.open_group(str(copy), mode="r+")
+    group["converged"][2, 1, 3] = False
+    group["status"][2, 1, 3] = 1
+    out = invoke("inspect", copy).stdout
+    assert "convergence: 1 unconverged cell(s)" in out
+    p, t, r = (float(ds.pressure[2]), float(ds.temperature[1]), float(ds.mixing_ratio[3]))
+    assert f"at pressure={p:g}, temperature={t:g}, mixing_ratio={r:g}: max_iterations" in out
+
+
+def test_inspect_unfinished_store(tmp_path):
+    config = write_config(tmp_path)
+    assert invoke("run", config, "--quiet").exit_code == 0
+    group = zarr.open_group(str(tmp_path / "out.zarr"), mode="r+")
+    group["block_complete"][0, 0, 0] = 0
+    group["phase_count"][:3, :2, :] = 0
+    group.attrs["run_state"] = "running"
+    out = invoke("inspect", tmp_path / "out.zarr").stdout
+    assert "run state: running" in out and "3 of 4 chunks complete" in out
+    assert re.search(r"not computed yet\s+30\b", out)
+
+
+def test_progress_line():
+    stream = io.StringIO()
+    line = _ProgressLine(stream, interval=0.0)
+    line(Progress(500, 1000, 1, 2, 1.0, 500.0, 1.0))
+    line(Progress(1000, 1000, 2, 2, 2.0, 500.0, 0.0))
+    line.close()
+    text = stream.getvalue()
+    assert text.startswith("\r500 / 1,000 cells (50.0%), 500 cells/s, about 1 s left")
+    assert "\r1,000 / 1,000 cells (100.0%)" in text and text.endswith("\n")
+
+
+def test_installed_entry_point(tmp_path):
+    """``python -m gridflash.cli`` (what the console script calls) runs and exits 0/1."""
+    config = write_config(tmp_path)
+    ok = subprocess.run([sys.executable, "-m", "gridflash.cli", "run", str(config), "-q"],
+                        capture_output=True, text=True, timeout=120)
+    assert ok.returncode == 0, ok.stderr
+    again = subprocess.run([sys.executable, "-m", "gridflash.cli", "run", str(config)],
+                           capture_output=True, text=True, timeout=120)
+    assert again.returncode == 1
+    assert again.stderr.startswith("Error: output ") and again.stderr.count("\n") == 1
