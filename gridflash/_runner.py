@@ -12,6 +12,7 @@ workers write the store themselves, so its path must be on a filesystem every wo
 from __future__ import annotations
 
 import contextlib
+import itertools
 import logging
 import os
 import time
@@ -259,7 +260,8 @@ def run(
             remove_store(path)
             create_store(path, spec, plan)
         else:
-            set_run_state(path, "running")
+            sessions = int(read_root_attrs(path).get("run_sessions", 0))
+            set_run_state(path, "running", run_sessions=sessions + 1)
         if todo:
             threads = _check_workers(client, path, address)
             t0 = time.perf_counter()
@@ -274,7 +276,6 @@ def run(
     session = time.perf_counter() - started
     final = {
         "wall_time_seconds": round(float(attrs.get("wall_time_seconds", 0.0)) + session, 3),
-        "run_sessions": int(attrs.get("run_sessions", 0)) + 1,
         "blocks_computed_last_session": len(computed),
         "blocks_reused_last_session": len(reused),
     }
@@ -445,7 +446,7 @@ def _drain(
 
     start = time.perf_counter()
     futures = as_completed(
-        [submit(b) for _, b in zip(range(in_flight), pending)], loop=client.loop
+        [submit(b) for b in itertools.islice(pending, in_flight)], loop=client.loop
     )
     out: list[BlockSummary] = []
     cells_done = 0

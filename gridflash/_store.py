@@ -62,6 +62,7 @@ __all__ = [
     "remove_store",
     "set_run_state",
     "stored_block_stats",
+    "stored_chunks",
     "write_block",
 ]
 
@@ -304,7 +305,7 @@ def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
         "cells_total": plan.n_cells,
         "run_state": "running",
         "created": _now(),
-        "run_sessions": 0,
+        "run_sessions": 1,
         "wall_time_seconds": 0.0,
     }
 
@@ -491,7 +492,7 @@ def completed_blocks(path: Path, plan: ChunkPlan) -> np.ndarray:
     return np.asarray(marks) == 1
 
 
-def stored_chunks(path: Path) -> dict[str, tuple[tuple[str, ...], tuple[int, ...], tuple[int, ...]]]:
+def stored_chunks(path: Path) -> dict[str, tuple[tuple[str, ...], ...]]:
     """Dimensions, shape and zarr chunk shape of every per-cell variable of a store."""
     group = _open_group(path, "r")
     out = {}

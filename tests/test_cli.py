@@ -14,8 +14,8 @@ import zarr
 from click.testing import CliRunner
 
 from gridflash._config import load_config
-from gridflash.cli import _ProgressLine, cli
 from gridflash._runner import Progress
+from gridflash.cli import _ProgressLine, cli
 
 from ._run_helpers import direct_flash, write_config
 

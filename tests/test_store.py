@@ -12,7 +12,6 @@ import xarray as xr
 import zarr
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from ._run_helpers import direct_flash, write_config
 
 import gridflash
 from gridflash import StoreError
@@ -35,6 +34,8 @@ from gridflash._store import (
     write_block,
 )
 from gridflash._sweep import slab_indices, sweep_block
+
+from ._run_helpers import direct_flash, write_config
 
 # --------------------------------------------------------------------------------------------
 # Chunk plan
