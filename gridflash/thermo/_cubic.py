@@ -15,7 +15,7 @@ where ``u = delta1 + delta2`` and ``w = delta1 delta2``. The van der Waals one-f
 ``a = sum_ij x_i x_j (1 - k_ij) sqrt(a_i a_j)``, ``b = sum_i x_i b_i`` are used throughout.
 
 Every function works on arrays over cells (leading axis ``n``) and components (last axis ``nc``);
-there is no Python loop over cells.
+the per-cell arithmetic is compiled (``_kernels.py``), so there is no Python loop over cells.
 """
 
 from __future__ import annotations
@@ -27,6 +27,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._types import EosName, RootChoice
+from . import _kernels as _k
 
 __all__ = [
     "CubicModel",
@@ -37,7 +38,7 @@ __all__ = [
     "reduced_parameters",
 ]
 
-R = 8.314462618  # J/(mol K), CODATA 2018
+R = _k.R  # J/(mol K), CODATA 2018
 
 _SQRT2 = math.sqrt(2.0)
 
@@ -141,21 +142,22 @@ def reduced_parameters(
     b : ndarray, shape (n, nc)
         ``B_i = b_i P / (R T)``.
     """
-    p = np.asarray(pressure, dtype=float)[:, None]
-    t = np.asarray(temperature, dtype=float)[:, None]
-    sqrt_alpha = np.abs(1.0 + model.m * (1.0 - np.sqrt(t / model.tc)))
-    sqrt_a = np.sqrt(model.ac * p) * sqrt_alpha / (R * t)
-    b = model.b * p / (R * t)
+    p = np.ascontiguousarray(pressure, dtype=float)
+    t = np.ascontiguousarray(temperature, dtype=float)
+    nc = model.n_components
+    sqrt_a = np.empty((p.shape[0], nc))
+    b = np.empty((p.shape[0], nc))
+    _k.reduced_batch(model.ac, model.m, model.b, model.tc, p, t, sqrt_a, b)
     return sqrt_a, b
 
 
 def cubic_roots(
     a: FloatArray, b: FloatArray, delta1: float, delta2: float
 ) -> tuple[FloatArray, FloatArray, NDArray[np.bool_]]:
-    """Largest and smallest real roots of the reduced cubic, for every cell at once.
+    """Largest and smallest real roots of the reduced cubic, for every cell.
 
-    The roots come from the trigonometric / Cardano closed forms and are then polished by two
-    Newton steps on the cubic.
+    The roots come from the trigonometric (three real roots) or Cardano (one real root, written
+    to avoid cancellation) closed forms, then two Newton steps on the cubic polish them.
 
     Returns
     -------
@@ -164,52 +166,13 @@ def cubic_roots(
     three_roots : ndarray of bool, shape (n,)
         Where three real roots exist.
     """
-    u = delta1 + delta2
-    w = delta1 * delta2
-    c2 = -(1.0 + b - u * b)
-    c1 = a + w * b * b - u * b - u * b * b
-    c0 = -(a * b + w * b * b + w * b * b * b)
-
-    p = c1 - c2 * c2 / 3.0
-    q = 2.0 * c2**3 / 27.0 - c2 * c1 / 3.0 + c0
-    disc = (q / 2.0) ** 2 + (p / 3.0) ** 3
-    shift = -c2 / 3.0
-    three = disc < 0.0
-
-    with np.errstate(invalid="ignore", divide="ignore"):
-        # One real root (Cardano), written to avoid cancellation.
-        sq = np.sqrt(np.where(three, 0.0, disc))
-        u1 = np.cbrt(-q / 2.0 - np.copysign(sq, q))
-        t1 = np.where(u1 != 0.0, u1 - p / (3.0 * u1), 0.0)
-        # Three real roots (trigonometric form).
-        r = np.sqrt(np.where(three, -p / 3.0, 0.0))
-        cos_arg = np.where(three, (-q / 2.0) / np.where(three, r**3, 1.0), 0.0)
-        phi = np.arccos(np.clip(cos_arg, -1.0, 1.0))
-        t_max = 2.0 * r * np.cos(phi / 3.0)
-        t_min = 2.0 * r * np.cos((phi - 4.0 * np.pi) / 3.0)
-
-    z_max = np.where(three, t_max, t1) + shift
-    z_min = np.where(three, t_min, t1) + shift
-    z_max = _polish(z_max, c2, c1, c0)
-    z_min = _polish(z_min, c2, c1, c0)
+    a = np.ascontiguousarray(a, dtype=float)
+    b = np.ascontiguousarray(b, dtype=float)
+    z_max = np.empty(a.shape[0])
+    z_min = np.empty(a.shape[0])
+    three = np.empty(a.shape[0], dtype=np.bool_)
+    _k.cubic_roots_batch(a, b, float(delta1), float(delta2), z_max, z_min, three)
     return z_max, z_min, three
-
-
-def _polish(z: FloatArray, c2: FloatArray, c1: FloatArray, c0: FloatArray) -> FloatArray:
-    for _ in range(2):
-        f = ((z + c2) * z + c1) * z + c0
-        df = (3.0 * z + 2.0 * c2) * z + c1
-        with np.errstate(invalid="ignore", divide="ignore"):
-            step = np.where(df != 0.0, f / df, 0.0)
-        z = np.where(np.isfinite(step), z - step, z)
-    return z
-
-
-def _gibbs_departure(z, a, b, delta1, delta2):
-    """Residual molar Gibbs energy over RT, up to terms equal for all roots of one cubic."""
-    return z - np.log(z - b) - a / (b * (delta1 - delta2)) * np.log(
-        (z + delta1 * b) / (z + delta2 * b)
-    )
 
 
 @dataclass(frozen=True, eq=False)
@@ -235,6 +198,9 @@ class PhaseState:
     psi: FloatArray
 
 
+_ROOTS = {"min_gibbs": _k.ROOT_MIN_GIBBS, "vapour": _k.ROOT_VAPOUR, "liquid": _k.ROOT_LIQUID}
+
+
 def phase_state(
     model: CubicModel,
     x: FloatArray,
@@ -247,7 +213,7 @@ def phase_state(
     Parameters
     ----------
     x : ndarray, shape (n, nc)
-        Mole fractions (need not be normalised exactly; they are used as given).
+        Mole fractions (used as given).
     sqrt_a, b_i : ndarray, shape (n, nc)
         From :func:`reduced_parameters`.
     root : {"min_gibbs", "vapour", "liquid"}
@@ -258,34 +224,20 @@ def phase_state(
     -----
     ``ln phi_i = (B_i/B)(Z - 1) - ln(Z - B) - A / (B (d1 - d2)) (2 psi_i / A - B_i / B)
     ln[(Z + d1 B) / (Z + d2 B)]`` (Michelsen & Mollerup 2007, ch. 3; Peng & Robinson 1976,
-    eq. 21 for d1,2 = 1 +- sqrt 2).
+    eq. 21 for d1,2 = 1 +- sqrt 2). Where three roots exist, the Gibbs energies of the largest
+    and smallest are compared through ``Z - ln(Z - B) - A / (B (d1 - d2)) ln[(Z + d1 B) /
+    (Z + d2 B)]``.
     """
-    d1, d2 = model.delta1, model.delta2
-    # einsum rather than matmul: BLAS blocking makes a row's rounding depend on the batch size,
-    # and a cell's answer must not depend on which other cells share its batch.
-    s = np.einsum("ij,jk->ik", sqrt_a * x, model.one_minus_k)
-    psi = sqrt_a * s
-    a = np.einsum("ij,ij->i", x, psi)
-    b = np.einsum("ij,ij->i", x, b_i)
-    z_max, z_min, three = cubic_roots(a, b, d1, d2)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        min_ok = three & (z_min > b)
-        if root == "vapour":
-            z = z_max
-        elif root == "liquid":
-            z = np.where(min_ok, z_min, z_max)
-        else:
-            g_max = _gibbs_departure(z_max, a, b, d1, d2)
-            g_min = _gibbs_departure(z_min, a, b, d1, d2)
-            z = np.where(min_ok & (g_min < g_max), z_min, z_max)
-        z = np.where(z > b, z, np.nan)
-        log_term = np.log((z + d1 * b) / (z + d2 * b))
-        b_ratio = b_i / b[:, None]
-        ln_phi = (
-            b_ratio * (z - 1.0)[:, None]
-            - np.log(z - b)[:, None]
-            - (a / (b * (d1 - d2)) * log_term)[:, None] * (2.0 * psi / a[:, None] - b_ratio)
-        )
+    x = np.ascontiguousarray(x, dtype=float)
+    n, nc = x.shape
+    z = np.empty(n)
+    a = np.empty(n)
+    b = np.empty(n)
+    ln_phi = np.empty((n, nc))
+    psi = np.empty((n, nc))
+    _k.phase_batch(x, np.ascontiguousarray(sqrt_a), np.ascontiguousarray(b_i),
+                   model.one_minus_k, model.delta1, model.delta2, _ROOTS[root], z, a, b,
+                   ln_phi, psi)
     return PhaseState(z=z, ln_phi=ln_phi, a=a, b=b, psi=psi)
 
 
@@ -306,45 +258,9 @@ def ln_phi_derivatives(
     ``n dA/dn_j = 2 psi_j - 2 A``, ``n dB/dn_j = B_j - B`` and ``n dpsi_i/dn_j = A_ij - psi_i``.
     Checked against finite differences in the tests.
     """
-    d1, d2 = model.delta1, model.delta2
-    u = d1 + d2
-    w = d1 * d2
-    z = state.z[:, None]
-    a = state.a[:, None]
-    b = state.b[:, None]
-    psi = state.psi
-
-    c2 = -(1.0 + b - u * b)
-    c1 = a + w * b * b - u * b - u * b * b
-    f_z = 3.0 * z * z + 2.0 * c2 * z + c1
-    f_a = z - b
-    f_b = -(1.0 - u) * z * z + (2.0 * w * b - u - 2.0 * u * b) * z - (a + 2.0 * w * b + 3.0 * w * b * b)
-
-    na = 2.0 * psi - 2.0 * a  # (n, nc): n dA/dn_j
-    nb = b_i - b  # (n, nc): n dB/dn_j
-    nz = -(f_a * na + f_b * nb) / f_z  # (n, nc)
-
-    b_ratio = b_i / b  # (n, nc)
-    log_term = np.log((z + d1 * b) / (z + d2 * b))  # (n, 1)
-    q = a / b
-    s = 2.0 * psi / a - b_ratio  # (n, nc)
-    nq = q * (na / a - nb / b)  # (n, nc) over j
-    nl = (nz + d1 * nb) / (z + d1 * b) - (nz + d2 * nb) / (z + d2 * b)  # (n, nc) over j
-
-    a_ij = sqrt_a[:, :, None] * sqrt_a[:, None, :] * model.one_minus_k  # (n, nc, nc)
-    ns = (
-        2.0 * a_ij / a[:, :, None]
-        + (2.0 * psi / a)[:, :, None]
-        - 4.0 * psi[:, :, None] * psi[:, None, :] / (a * a)[:, :, None]
-        + b_ratio[:, :, None] * b_ratio[:, None, :]
-        - b_ratio[:, :, None]
-    )
-
-    t1 = b_ratio[:, :, None] * (nz[:, None, :] - ((z - 1.0) / b)[:, :, None] * nb[:, None, :])
-    t2 = -((nz - nb) / (z - b))[:, None, :]
-    t3 = -(1.0 / (d1 - d2)) * (
-        nq[:, None, :] * s[:, :, None] * log_term[:, :, None]
-        + q[:, :, None] * ns * log_term[:, :, None]
-        + q[:, :, None] * s[:, :, None] * nl[:, None, :]
-    )
-    return t1 + t2 + t3
+    n, nc = state.psi.shape
+    out = np.empty((n, nc, nc))
+    _k.dlnphi_batch(state.z, state.a, state.b, np.ascontiguousarray(state.psi),
+                    np.ascontiguousarray(sqrt_a), np.ascontiguousarray(b_i), model.one_minus_k,
+                    model.delta1, model.delta2, out)
+    return out

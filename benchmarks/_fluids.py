@@ -1,0 +1,34 @@
+"""Invented benchmark fluids (not field data): an 8-component volatile oil with a CO2-rich
+injection gas, and a 3-component light mixture."""
+
+from __future__ import annotations
+
+import numpy as np
+
+import gridflash
+
+NAMES_8 = ("CO2", "C1", "C2", "C3", "nC4", "nC6", "nC8", "nC10")
+OIL_8 = np.array([0.02, 0.40, 0.08, 0.07, 0.06, 0.08, 0.12, 0.17])
+GAS_8 = np.array([0.70, 0.25, 0.03, 0.02, 0.0, 0.0, 0.0, 0.0])
+KIJ_8 = {("CO2", n): 0.12 for n in NAMES_8[1:]}  # common-practice magnitude, from memory
+
+NAMES_3 = ("C1", "C3", "nC6")
+OIL_3 = np.array([0.35, 0.30, 0.35])
+GAS_3 = np.array([0.90, 0.08, 0.02])
+
+
+def mixture(n_components: int) -> gridflash.Mixture:
+    if n_components == 8:
+        return gridflash.Mixture(NAMES_8, kij=KIJ_8)
+    return gridflash.Mixture(NAMES_3)
+
+
+def grid(n_components: int, n_p: int, n_t: int, n_r: int):
+    """Flattened (pressure, temperature, z) of an oil/gas mixing-line grid, C order (P, T, r)."""
+    oil, gas = (OIL_8, GAS_8) if n_components == 8 else (OIL_3, GAS_3)
+    p = np.linspace(1e6, 50e6, n_p)
+    t = np.linspace(290.0, 450.0, n_t)
+    r = np.linspace(0.0, 1.0, n_r)
+    pp, tt, rr = np.meshgrid(p, t, r, indexing="ij")
+    z = (1.0 - rr.ravel()[:, None]) * oil + rr.ravel()[:, None] * gas
+    return pp.ravel(), tt.ravel(), z
