@@ -1,0 +1,194 @@
+"""Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
+
+Run: ``python benchmarks/bench_runner.py [--quick]``. For each case it starts ``gridflash run``
+as a subprocess with local worker processes, samples the resident memory (RSS) of the whole
+process tree (driver, workers, everything they start) every 50 ms, and prints wall time,
+cells/s and peak RSS. Baselines measured in this same process:
+
+- kernel: one direct ``gridflash.flash`` call on 20 000 cells of the same grid (one core), so the
+  run's cells/s is printed as a ratio to ``cores x`` the kernel's rate;
+- memory: the same chunks on a grid 8x smaller, so the peak-RSS ratio shows whether memory
+  follows the chunk size (ratio near 1) or the grid size (ratio near 8).
+
+The fluid is the invented 8-component volatile oil / CO2-rich gas of ``_fluids.py`` (not field
+data). Also printed: mean iterations per cell warm vs cold on the bundled example
+``configs/volatile_oil_co2.toml``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+import psutil
+from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8
+
+import gridflash
+
+ROOT = Path(__file__).resolve().parents[1]
+
+CONFIG = """\
+# Invented benchmark fluid (not field data).
+[fluid]
+components = {names}
+kij = {{ {kij} }}
+[streams.oil]
+mole_fractions = {oil}
+[streams.gas]
+mole_fractions = {gas}
+[pressure]
+unit = "Pa"
+start = 1e6
+stop = 5e7
+count = {n_p}
+[temperature]
+unit = "K"
+start = 290.0
+stop = 450.0
+count = {n_t}
+[composition]
+kind = "mixing"
+streams = ["oil", "gas"]
+start = 0.0
+stop = 1.0
+count = {n_r}
+[run]
+output = "out.zarr"
+scheduler = "processes"
+sweep = "pressure"
+{chunks}
+"""
+
+
+def write_config(folder: Path, shape: tuple[int, int, int], chunks: str) -> Path:
+    text = CONFIG.format(
+        names="[" + ", ".join(f'"{n}"' for n in NAMES_8) + "]",
+        kij=", ".join(f'"{a}-{b}" = {v}' for (a, b), v in KIJ_8.items()),
+        oil="[" + ", ".join(map(str, OIL_8)) + "]",
+        gas="[" + ", ".join(map(str, GAS_8)) + "]",
+        n_p=shape[0], n_t=shape[1], n_r=shape[2], chunks=chunks,
+    )
+    path = folder / "bench.toml"
+    path.write_text(text)
+    return path
+
+
+def tree_rss(proc: psutil.Process) -> int:
+    total = 0
+    for p in [proc, *proc.children(recursive=True)]:
+        try:
+            total += p.memory_info().rss
+        except psutil.Error:
+            pass
+    return total
+
+
+def run_case(folder: Path, shape, chunks: str, extra=()) -> dict:
+    config = write_config(folder, shape, chunks)
+    shutil.rmtree(folder / "out.zarr", ignore_errors=True)
+    cmd = [sys.executable, "-m", "gridflash.cli", "run", str(config), *extra]
+    start = time.perf_counter()
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    ps = psutil.Process(proc.pid)
+    peak = 0
+    while proc.poll() is None:
+        peak = max(peak, tree_rss(ps))
+        time.sleep(0.05)
+    wall = time.perf_counter() - start
+    out, err = proc.communicate()
+    if proc.returncode:
+        raise SystemExit(f"gridflash run failed: {err}")
+    attrs = gridflash._store.read_root_attrs(folder / "out.zarr")
+    rate = re.search(r"([\d,]+) cells/s", out)
+    return {
+        "wall": wall,
+        "peak": peak,
+        "cells": int(np.prod(shape)),
+        "run_rate": float(rate[1].replace(",", "")) if rate else float("nan"),
+        "chunks": attrs["chunks"],
+        "blocks": attrs["blocks_total"],
+        "mean_iterations": attrs["mean_iterations"],
+        "unconverged": attrs["cells_unconverged"],
+        "store_mb": sum(f.stat().st_size for f in (folder / "out.zarr").rglob("*")
+                        if f.is_file()) / 1e6,
+    }
+
+
+def kernel_rate() -> float:
+    sys.path.insert(0, str(Path(__file__).parent))
+    from _fluids import grid, mixture
+
+    mix = mixture(8)
+    p, t, z = grid(8, 100, 10, 20)
+    gridflash.flash(mix, p[:100], t[:100], z[:100])
+    start = time.perf_counter()
+    gridflash.flash(mix, p, t, z)
+    return p.size / (time.perf_counter() - start)
+
+
+def iterations_warm_vs_cold(folder: Path) -> tuple[float, float]:
+    config = ROOT / "configs" / "volatile_oil_co2.toml"
+    out = {}
+    for label, extra in (("warm", []), ("cold", ["--no-warm-start"])):
+        store = folder / f"example_{label}.zarr"
+        subprocess.run([sys.executable, "-m", "gridflash.cli", "run", str(config), "-q",
+                        "--output", str(store), *extra], check=True)
+        out[label] = gridflash._store.read_root_attrs(store)["mean_iterations"]
+    return out["warm"], out["cold"]
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="1.25e5 cells instead of 1e6")
+    args = parser.parse_args()
+    cores = os.cpu_count() or 1
+    big = (50, 50, 50) if args.quick else (100, 100, 100)
+    small = (big[0], big[1] // 2, big[2] // 4)  # 8x fewer cells, same chunks
+    print(f"cores: {cores}  gridflash {gridflash.__version__}  grid {big} = "
+          f"{int(np.prod(big)):,} cells, 8 components, local processes on every core")
+    base = kernel_rate()
+    print(f"baseline: direct flash on 20,000 cells, one core: {base:,.0f} cells/s")
+    cases = [
+        ("config default chunks", big, ""),
+        ("chunks 13 x 50 x 100", big, "chunks = { pressure = 13, temperature = 50, "
+         "composition = 100 }"),
+        ("chunks 13 x 50 x 100, cold", big, "chunks = { pressure = 13, temperature = 50, "
+         "composition = 100 }\nwarm_start = false"),
+    ]
+    with tempfile.TemporaryDirectory() as tmp:
+        folder = Path(tmp)
+        results = {}
+        for label, shape, chunks in cases:
+            r = run_case(folder, shape, chunks)
+            results[label] = r
+            print(f"\n{label}: chunks {r['chunks']} ({r['blocks']} blocks); load average "
+                  f"{os.getloadavg()[0]:.2f} after the run")
+            print(f"  wall time {r['wall']:.1f} s (process start to exit), "
+                  f"{r['cells'] / r['wall']:,.0f} cells/s overall, {r['run_rate']:,.0f} cells/s "
+                  f"while computing = {r['run_rate'] / (cores * base):.2f} x ({cores} x kernel)")
+            print(f"  peak RSS of the process tree {r['peak'] / 2**20:,.0f} MiB; store "
+                  f"{r['store_mb']:.0f} MB on disk; mean iterations {r['mean_iterations']:.2f}; "
+                  f"unconverged {r['unconverged']}")
+        ref = results["config default chunks"]
+        same = ", ".join(f"{d} = {c}" for d, c in zip(
+            ("pressure", "temperature", "composition"), ref["chunks"], strict=True))
+        small_run = run_case(folder, small, f"chunks = {{ {same} }}")
+        print(f"\nmemory baseline: same default chunks on {int(np.prod(small)):,} cells: peak "
+              f"{small_run['peak'] / 2**20:,.0f} MiB; ratio big/small grid = "
+              f"{ref['peak'] / small_run['peak']:.2f} for {np.prod(big) / np.prod(small):.0f}x "
+              "the cells")
+        warm, cold = iterations_warm_vs_cold(folder)
+        print(f"\nconfigs/volatile_oil_co2.toml mean iterations per cell: warm {warm:.2f}, cold "
+              f"{cold:.2f}, ratio cold/warm {cold / warm:.2f}")
+
+
+if __name__ == "__main__":
+    main()
