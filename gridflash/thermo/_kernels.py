@@ -69,6 +69,7 @@ TOL_RESIDUAL = 1e-10  # max |ln f_i^V - ln f_i^L| of a converged cell
 TOL_BALANCE = 1e-12  # material balance of a converged cell
 NEWTON_TARGET = 1e-12
 SWITCH_RESIDUAL = 1e-5
+WARM_SWITCH_RESIDUAL = 1.0  # a neighbour's K-values are close: Newton at once
 SWITCH_AFTER = 25
 SPLIT_GDEM_EVERY = 5
 NEWTON_MIN_PHASE = 1e-6
@@ -742,7 +743,7 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
         converged = finite and (not trivial) and inside and res < TOL_RESIDUAL
         newton_ok = inside and min(beta, 1.0 - beta) > NEWTON_MIN_PHASE
         switch = finite and (not trivial) and (not converged) and newton_ok and (
-            res < SWITCH_RESIDUAL or it >= SWITCH_AFTER)
+            res < (WARM_SWITCH_RESIDUAL if warm else SWITCH_RESIDUAL) or it >= SWITCH_AFTER)
         outside = finite and (not trivial) and (not converged) and (not switch) and (not inside)
         give_up = outside and warm and it >= 3
         last = it == max_ss
