@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 from ._errors import ConfigError, GridflashError, InputError, StoreError
-from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 from ._table import open_table
+from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 
 __version__ = "0.1.0"
 

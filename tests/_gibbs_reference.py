@@ -31,7 +31,12 @@ class PlainPR:
         self.omega = w
 
     def params(self, p, t):
-        ai = 0.45723553 * (R * self.tc) ** 2 / self.pc * (1 + self.m * (1 - np.sqrt(t / self.tc))) ** 2
+        ai = (
+            0.45723553
+            * (R * self.tc) ** 2
+            / self.pc
+            * (1 + self.m * (1 - np.sqrt(t / self.tc))) ** 2
+        )
         bi = 0.07779607 * R * self.tc / self.pc
         aij = np.sqrt(np.outer(ai, ai)) * (1 - self.kij)
         return aij * p / (R * t) ** 2, bi * p / (R * t)
@@ -52,7 +57,9 @@ class PlainPR:
             lnphi = (
                 bi / b * (z - 1)
                 - math.log(z - b)
-                - a / (2 * s2 * b) * (2 * (aij @ x) / a - bi / b)
+                - a
+                / (2 * s2 * b)
+                * (2 * (aij @ x) / a - bi / b)
                 * math.log((z + (1 + s2) * b) / (z + (1 - s2) * b))
             )
             g = float(x @ lnphi)
@@ -91,8 +98,9 @@ def minimise_gibbs(model: PlainPR, z, p, t, starts):
 
     for s in starts:
         u0 = np.log(s[zpos] / (zz - s[zpos]))
-        res = minimize(fun, u0, method="L-BFGS-B", options={"ftol": 1e-15, "gtol": 1e-11,
-                                                             "maxiter": 3000})
+        res = minimize(
+            fun, u0, method="L-BFGS-B", options={"ftol": 1e-15, "gtol": 1e-11, "maxiter": 3000}
+        )
         if res.fun < best_g:
             best_g = float(res.fun)
             v = np.zeros_like(z)
@@ -158,8 +166,14 @@ def classify(model: PlainPR, z, p, t, *, clear=1e-11, none=1e-14, extra_start=No
     for start in starts:
         v = np.clip(start, 1e-12 * z, z * (1 - 1e-9))[present]
         u0 = np.log(v / (zz - v))
-        res = minimize(fun, u0, jac=True, method="TNC", bounds=[(-30.0, 30.0)] * u0.size,
-                       options={"ftol": 1e-16, "gtol": 1e-12, "maxfun": 400})
+        res = minimize(
+            fun,
+            u0,
+            jac=True,
+            method="TNC",
+            bounds=[(-30.0, 30.0)] * u0.size,
+            options={"ftol": 1e-16, "gtol": 1e-12, "maxfun": 400},
+        )
         best = min(best, float(res.fun))
         if best < g_feed - 10 * clear:
             return 2, best - g_feed

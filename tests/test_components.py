@@ -12,13 +12,41 @@ from gridflash.thermo import builtin_component, builtin_names
 # CAS numbers used to query the `chemicals` package (Caleb Bell, chemicals.critical: IUPAC /
 # Poling et al. / Yaws critical-property databases; chemicals.acentric: Poling et al.).
 CAS = {
-    "N2": "7727-37-9", "CO2": "124-38-9", "H2S": "7783-06-4", "H2O": "7732-18-5",
-    "C1": "74-82-8", "C2": "74-84-0", "C3": "74-98-6", "iC4": "75-28-5", "nC4": "106-97-8",
-    "iC5": "78-78-4", "nC5": "109-66-0", "nC6": "110-54-3", "nC7": "142-82-5",
-    "nC8": "111-65-9", "nC9": "111-84-2", "nC10": "124-18-5",
+    "N2": "7727-37-9",
+    "CO2": "124-38-9",
+    "H2S": "7783-06-4",
+    "H2O": "7732-18-5",
+    "C1": "74-82-8",
+    "C2": "74-84-0",
+    "C3": "74-98-6",
+    "iC4": "75-28-5",
+    "nC4": "106-97-8",
+    "iC5": "78-78-4",
+    "nC5": "109-66-0",
+    "nC6": "110-54-3",
+    "nC7": "142-82-5",
+    "nC8": "111-65-9",
+    "nC9": "111-84-2",
+    "nC10": "124-18-5",
 }
-REQUIRED = ("N2", "CO2", "H2S", "H2O", "C1", "C2", "C3", "iC4", "nC4", "iC5", "nC5", "nC6",
-            "nC7", "nC8", "nC9", "nC10")
+REQUIRED = (
+    "N2",
+    "CO2",
+    "H2S",
+    "H2O",
+    "C1",
+    "C2",
+    "C3",
+    "iC4",
+    "nC4",
+    "iC5",
+    "nC5",
+    "nC6",
+    "nC7",
+    "nC8",
+    "nC9",
+    "nC10",
+)
 
 
 def test_required_components_present():
@@ -41,9 +69,20 @@ def test_critical_constants_against_chemicals(name):
 
 @pytest.mark.parametrize(
     ("alias", "short"),
-    [("methane", "C1"), ("METHANE", "C1"), ("c1", "C1"), ("n-butane", "nC4"), ("NC4", "nC4"),
-     ("isobutane", "iC4"), ("i-butane", "iC4"), ("carbon dioxide", "CO2"), ("co2", "CO2"),
-     ("hydrogen sulphide", "H2S"), ("n-decane", "nC10"), ("water", "H2O")],
+    [
+        ("methane", "C1"),
+        ("METHANE", "C1"),
+        ("c1", "C1"),
+        ("n-butane", "nC4"),
+        ("NC4", "nC4"),
+        ("isobutane", "iC4"),
+        ("i-butane", "iC4"),
+        ("carbon dioxide", "CO2"),
+        ("co2", "CO2"),
+        ("hydrogen sulphide", "H2S"),
+        ("n-decane", "nC10"),
+        ("water", "H2O"),
+    ],
 )
 def test_lookup_by_shorthand_and_chemical_name(alias, short):
     assert builtin_component(alias).name == short

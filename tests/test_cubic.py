@@ -45,14 +45,23 @@ def test_roots_solve_the_cubic(eos):
     zmax, zmin, three = cubic_roots(a, b, d1, d2)
     u, w = d1 + d2, d1 * d2
     for z in (zmax, zmin):
-        f = z**3 - (1 + b - u * b) * z**2 + (a + w * b * b - u * b - u * b * b) * z - (
-            a * b + w * b * b + w * b**3
+        f = (
+            z**3
+            - (1 + b - u * b) * z**2
+            + (a + w * b * b - u * b - u * b * b) * z
+            - (a * b + w * b * b + w * b**3)
         )
         assert np.max(np.abs(f) / np.maximum(1.0, np.abs(z) ** 3)) < 1e-12
     # Where a third root exists, the two reported ones bracket it: compare with numpy.roots.
     for i in np.flatnonzero(three)[:200]:
-        r = np.roots([1, -(1 + b[i] - u * b[i]), a[i] + w * b[i] ** 2 - u * b[i] - u * b[i] ** 2,
-                      -(a[i] * b[i] + w * b[i] ** 2 + w * b[i] ** 3)])
+        r = np.roots(
+            [
+                1,
+                -(1 + b[i] - u * b[i]),
+                a[i] + w * b[i] ** 2 - u * b[i] - u * b[i] ** 2,
+                -(a[i] * b[i] + w * b[i] ** 2 + w * b[i] ** 3),
+            ]
+        )
         real = np.sort(r[np.abs(r.imag) < 1e-9].real)
         assert zmax[i] == pytest.approx(real[-1], rel=1e-9, abs=1e-12)
         assert zmin[i] == pytest.approx(real[0], rel=1e-9, abs=1e-12)
@@ -104,8 +113,13 @@ def test_ln_phi_satisfies_gibbs_duhem_and_ideal_gas_limit():
 
 @pytest.mark.parametrize(
     ("name", "coolprop_name"),
-    [("C1", "Methane"), ("C3", "Propane"), ("nC4", "n-Butane"), ("nC10", "n-Decane"),
-     ("CO2", "CarbonDioxide")],
+    [
+        ("C1", "Methane"),
+        ("C3", "Propane"),
+        ("nC4", "n-Butane"),
+        ("nC10", "n-Decane"),
+        ("CO2", "CarbonDioxide"),
+    ],
 )
 @pytest.mark.parametrize("eos", ["PR78", "SRK"])
 def test_pure_vapour_pressure_against_coolprop(name, coolprop_name, eos):
@@ -140,8 +154,12 @@ def test_volume_shift_srk_matches_peneloux_formula():
 
 @pytest.mark.parametrize(
     ("name", "coolprop_name", "t"),
-    [("C3", "Propane", 250.0), ("nC6", "n-Hexane", 300.0), ("nC10", "n-Decane", 300.0),
-     ("C1", "Methane", 120.0)],
+    [
+        ("C3", "Propane", 250.0),
+        ("nC6", "n-Hexane", 300.0),
+        ("nC10", "n-Decane", 300.0),
+        ("C1", "Methane", 120.0),
+    ],
 )
 def test_volume_shift_improves_liquid_density(name, coolprop_name, t):
     # Reference: CoolProp saturated-liquid density. Peng-Robinson without a shift is known to

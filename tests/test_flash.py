@@ -58,9 +58,9 @@ def test_grid_converges_and_satisfies_equilibrium(oil_gas_mixture):
     assert np.all(r.vapour.mass_density[two] < r.liquid.mass_density[two])
     np.testing.assert_allclose(r.K[two], r.y[two] / r.x[two], rtol=1e-10)
     # Gibbs energy of the split does not exceed the feed's.
-    g_split = (1 - r.vapour_fraction[two]) * _gibbs(mix, p[two], t[two], r.x[two]) + r.vapour_fraction[
-        two
-    ] * _gibbs(mix, p[two], t[two], r.y[two])
+    g_split = (1 - r.vapour_fraction[two]) * _gibbs(
+        mix, p[two], t[two], r.x[two]
+    ) + r.vapour_fraction[two] * _gibbs(mix, p[two], t[two], r.y[two])
     assert np.all(g_split <= _gibbs(mix, p[two], t[two], z[two]) + 1e-12)
     # Single-phase cells report the feed in the phase they are labelled as.
     one = ~two
@@ -106,8 +106,13 @@ CASES = [
     # (components, kij pairs, z, P [Pa], T [K]) - invented test mixtures
     (("C1", "nC4"), {}, [0.5, 0.5], 5e6, 300.0),
     (("C1", "C3", "nC6"), {}, [0.6, 0.25, 0.15], 8e6, 320.0),
-    (("CO2", "C1", "nC4", "nC10"), {("CO2", "C1"): 0.12, ("CO2", "nC4"): 0.12,
-                                   ("CO2", "nC10"): 0.12}, [0.3, 0.3, 0.2, 0.2], 12e6, 340.0),
+    (
+        ("CO2", "C1", "nC4", "nC10"),
+        {("CO2", "C1"): 0.12, ("CO2", "nC4"): 0.12, ("CO2", "nC10"): 0.12},
+        [0.3, 0.3, 0.2, 0.2],
+        12e6,
+        340.0,
+    ),
     (("N2", "C1", "C2", "nC5", "nC8"), {}, [0.05, 0.55, 0.1, 0.15, 0.15], 15e6, 360.0),
     (("C1", "nC10"), {}, [0.9, 0.1], 30e6, 400.0),
     (("C1", "C2", "C3", "nC4", "nC7"), {}, [0.2, 0.2, 0.2, 0.2, 0.2], 3e6, 330.0),
@@ -252,7 +257,10 @@ def test_single_component_is_single_phase_off_the_saturation_line():
 @pytest.mark.parametrize(
     ("kwargs", "message"),
     [
-        ({"pressure": [1e6, -1.0, 0.0]}, r"pressure: 2 cell\(s\) are not finite and positive .*first indices: 1, 2"),
+        (
+            {"pressure": [1e6, -1.0, 0.0]},
+            r"pressure: 2 cell\(s\) are not finite and positive .*first indices: 1, 2",
+        ),
         ({"temperature": [300.0, np.nan, 300.0]}, r"temperature: 1 cell\(s\).*first indices: 1"),
         ({"z": [[0.5, 0.6], [0.5, 0.5], [0.5, 0.5]]}, r"z: 1 cell\(s\) do not sum to 1"),
         ({"z": [[0.5, 0.5], [-0.1, 1.1], [np.nan, 1.0]]}, r"z: 1 cell\(s\) hold NaN"),

@@ -60,8 +60,14 @@ def _variants():
     almost_c10 = np.full(8, 1e-10 / 7)
     almost_c10[7] = 1 - 1e-10
     co2_rich = np.array([0.95, 0.03, 0.01, 0.01, 0, 0, 0, 0])
-    feeds = {"trace-1e-12": trace, "zero": zero, "almost-pure-C1": almost_c1,
-             "almost-pure-nC10": almost_c10, "CO2-rich": co2_rich, "gas": INVENTED_GAS}
+    feeds = {
+        "trace-1e-12": trace,
+        "zero": zero,
+        "almost-pure-C1": almost_c1,
+        "almost-pure-nC10": almost_c10,
+        "CO2-rich": co2_rich,
+        "gas": INVENTED_GAS,
+    }
     return {k: v / v.sum() for k, v in feeds.items()}
 
 
@@ -160,11 +166,18 @@ def test_phase_count_near_boundaries_matches_gibbs_minimisation(oil_gas_mixture)
     assert r.converged.all()
     plain = PlainPR(mix.tc, mix.pc, mix.omega, mix.kij)
     splits = np.where((r.phase_count == 2)[:, None], r.vapour_fraction[:, None] * r.y, np.nan)
-    labels = np.array([
-        classify(plain, z[i], cells[i, 0], cells[i, 1],
-                 extra_start=splits[i] if r.phase_count[i] == 2 else None)[0]
-        for i in range(500)
-    ])
+    labels = np.array(
+        [
+            classify(
+                plain,
+                z[i],
+                cells[i, 0],
+                cells[i, 1],
+                extra_start=splits[i] if r.phase_count[i] == 2 else None,
+            )[0]
+            for i in range(500)
+        ]
+    )
     assert r.phase_count[300:].min() == 1 and r.phase_count[300:].max() == 2
     decided = labels > 0
     assert decided.mean() > 0.98

@@ -20,8 +20,13 @@ def _single(name, t, p):
 
 @pytest.mark.parametrize(
     ("name", "coolprop_name", "t"),
-    [("C1", "Methane", 300.0), ("N2", "Nitrogen", 300.0), ("CO2", "CO2", 350.0),
-     ("C3", "Propane", 400.0), ("C2", "Ethane", 350.0)],
+    [
+        ("C1", "Methane", 300.0),
+        ("N2", "Nitrogen", 300.0),
+        ("CO2", "CO2", 350.0),
+        ("C3", "Propane", 400.0),
+        ("C2", "Ethane", 350.0),
+    ],
 )
 def test_dilute_gas_viscosity_against_coolprop(name, coolprop_name, t):
     # Reference: CoolProp's reference viscosity correlations at 1 bar. Stiel & Thodos (1961)
@@ -39,18 +44,26 @@ def test_dense_supercritical_methane_viscosity(t, p):
     # fitted to dense gases; 6% tolerance, density 3% (untuned PR with Peneloux shift).
     _, phase = _single("C1", t, p)
     assert phase.viscosity[0] == pytest.approx(cp.PropsSI("V", "T", t, "P", p, "Methane"), rel=0.06)
-    assert phase.mass_density[0] == pytest.approx(cp.PropsSI("D", "T", t, "P", p, "Methane"), rel=0.03)
+    assert phase.mass_density[0] == pytest.approx(
+        cp.PropsSI("D", "T", t, "P", p, "Methane"), rel=0.03
+    )
 
 
 @pytest.mark.parametrize(
     ("name", "coolprop_name", "t", "p"),
-    [("nC6", "n-Hexane", 300.0, 1e6), ("nC10", "n-Decane", 300.0, 1e6), ("C3", "Propane", 300.0, 5e6)],
+    [
+        ("nC6", "n-Hexane", 300.0, 1e6),
+        ("nC10", "n-Decane", 300.0, 1e6),
+        ("C3", "Propane", 300.0, 5e6),
+    ],
 )
 def test_liquid_viscosity_order_of_magnitude(name, coolprop_name, t, p):
     # LBC with untuned critical volumes is known to be rough for liquids (common practice is to
     # tune Vc of the heavy ends to measured viscosities); we only require 25%.
     _, phase = _single(name, t, p)
-    assert phase.viscosity[0] == pytest.approx(cp.PropsSI("V", "T", t, "P", p, coolprop_name), rel=0.25)
+    assert phase.viscosity[0] == pytest.approx(
+        cp.PropsSI("V", "T", t, "P", p, coolprop_name), rel=0.25
+    )
 
 
 def test_li_pseudocritical_temperature_formula():
@@ -78,8 +91,10 @@ def test_volume_shift_does_not_change_equilibrium():
 
     names = ["C1", "C3", "nC7"]
     plain = [builtin_component(n) for n in names]
-    shifted = [Component(c.name, c.tc, c.pc, c.omega, c.mw, vc=c.vc, volume_shift=s)
-               for c, s in zip(plain, (-0.3, 0.2, 0.4))]
+    shifted = [
+        Component(c.name, c.tc, c.pc, c.omega, c.mw, vc=c.vc, volume_shift=s)
+        for c, s in zip(plain, (-0.3, 0.2, 0.4), strict=True)
+    ]
     z = [0.5, 0.2, 0.3]
     a = flash(Mixture(plain), 6e6, 320.0, z)
     b = flash(Mixture(shifted), 6e6, 320.0, z)

@@ -20,8 +20,9 @@ def _brentq_root(k, z):
     def g(b):
         return np.sum(z * km1 / (1.0 + b * km1))
 
-    return brentq(g, np.nextafter(lo, hi), np.nextafter(hi, lo), xtol=1e-300, rtol=1e-15,
-                  maxiter=1000)
+    return brentq(
+        g, np.nextafter(lo, hi), np.nextafter(hi, lo), xtol=1e-300, rtol=1e-15, maxiter=1000
+    )
 
 
 def _random_sets(seed, n, nc, lo, hi):

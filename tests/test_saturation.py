@@ -32,13 +32,16 @@ def test_pure_component_limit_is_the_vapour_pressure():
     t = np.array([300.0])
     psat = pure_vapour_pressure(mix.model, np.array([1]), t)[0][0]
     # An exactly single-component feed returns the EOS vapour pressure itself...
-    p, kind, _ = saturation_pressure(mix, t, np.array([[0.0, 1.0]]), np.array([psat]),
-                                     np.array([psat]))
+    p, kind, _ = saturation_pressure(
+        mix, t, np.array([[0.0, 1.0]]), np.array([psat]), np.array([psat])
+    )
     assert kind[0] == 3 and p[0] == pytest.approx(psat, rel=1e-12)
     # ...and an almost pure one converges to it: bubble point of propane with 1e-6 methane lies
     # within ~1e-4 of the propane vapour pressure (Henry's-law limit: dP/dx1 ~ H1 - Psat).
     z = np.array([[1e-6, 1 - 1e-6]])
-    p2, kind2, _ = saturation_pressure(mix, t, z, np.array([psat * (1 + 1e-5)]), np.array([psat * 1.01]))
+    p2, kind2, _ = saturation_pressure(
+        mix, t, z, np.array([psat * (1 + 1e-5)]), np.array([psat * 1.01])
+    )
     assert kind2[0] == 1
     assert p2[0] == pytest.approx(psat, rel=1e-4)
     assert p2[0] > psat
@@ -46,6 +49,7 @@ def test_pure_component_limit_is_the_vapour_pressure():
 
 def test_invalid_brackets_give_nan():
     mix = Mixture(["C1", "C3"])
-    p, kind, _ = saturation_pressure(mix, np.array([250.0]), np.array([[0.2, 0.8]]),
-                                     np.array([1e7]), np.array([2e7]))  # both one-phase
+    p, kind, _ = saturation_pressure(
+        mix, np.array([250.0]), np.array([[0.2, 0.8]]), np.array([1e7]), np.array([2e7])
+    )  # both one-phase
     assert np.isnan(p[0]) and kind[0] == 0

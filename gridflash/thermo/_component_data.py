@@ -17,7 +17,9 @@ from it by Peneloux's rule for the equation of state in use (see ``_volume_shift
 from __future__ import annotations
 
 #: Source label stored with each built-in component (and in a store's provenance).
-SOURCE = "Poling, Prausnitz & O'Connell (2001), The Properties of Gases and Liquids, 5th ed., App. A"
+SOURCE = (
+    "Poling, Prausnitz & O'Connell (2001), The Properties of Gases and Liquids, 5th ed., App. A"
+)
 
 # name, shorthand, aliases, tc [K], pc [bar], omega [-], mw [g/mol], vc [cm3/mol]
 _ROWS: tuple[tuple[str, str, tuple[str, ...], float, float, float, float, float], ...] = (

@@ -78,9 +78,7 @@ class Component:
                     "give the critical volume in m3/mol (e.g. 9.86e-5 for methane)"
                 )
         if self.zra is not None and (not _finite(self.zra) or not 0.1 < self.zra < 0.5):
-            raise InputError(
-                f"Component {self.name!r}: zra={self.zra!r} is outside (0.1, 0.5)"
-            )
+            raise InputError(f"Component {self.name!r}: zra={self.zra!r} is outside (0.1, 0.5)")
         if self.volume_shift is not None and (
             not _finite(self.volume_shift) or abs(self.volume_shift) >= 1.0
         ):

@@ -235,9 +235,20 @@ def phase_state(
     b = np.empty(n)
     ln_phi = np.empty((n, nc))
     psi = np.empty((n, nc))
-    _k.phase_batch(x, np.ascontiguousarray(sqrt_a), np.ascontiguousarray(b_i),
-                   model.one_minus_k, model.delta1, model.delta2, _ROOTS[root], z, a, b,
-                   ln_phi, psi)
+    _k.phase_batch(
+        x,
+        np.ascontiguousarray(sqrt_a),
+        np.ascontiguousarray(b_i),
+        model.one_minus_k,
+        model.delta1,
+        model.delta2,
+        _ROOTS[root],
+        z,
+        a,
+        b,
+        ln_phi,
+        psi,
+    )
     return PhaseState(z=z, ln_phi=ln_phi, a=a, b=b, psi=psi)
 
 
@@ -260,7 +271,16 @@ def ln_phi_derivatives(
     """
     n, nc = state.psi.shape
     out = np.empty((n, nc, nc))
-    _k.dlnphi_batch(state.z, state.a, state.b, np.ascontiguousarray(state.psi),
-                    np.ascontiguousarray(sqrt_a), np.ascontiguousarray(b_i), model.one_minus_k,
-                    model.delta1, model.delta2, out)
+    _k.dlnphi_batch(
+        state.z,
+        state.a,
+        state.b,
+        np.ascontiguousarray(state.psi),
+        np.ascontiguousarray(sqrt_a),
+        np.ascontiguousarray(b_i),
+        model.one_minus_k,
+        model.delta1,
+        model.delta2,
+        out,
+    )
     return out

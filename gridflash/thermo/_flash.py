@@ -114,14 +114,16 @@ def _validate(mixture, pressure, temperature, z, k_init):
         if arr.ndim > 1:
             raise InputError(f"{name} must be a scalar or a 1-D array, got shape {arr.shape}")
     n = max(zz.shape[0], p.size if p.ndim else 1, t.size if t.ndim else 1)
-    shapes = {"z rows": zz.shape[0], "pressure": p.size if p.ndim else 1,
-              "temperature": t.size if t.ndim else 1}
-    for name, size in shapes.items():
-        if size not in (1, n):
-            raise InputError(
-                f"shape mismatch: {', '.join(f'{k} has {v}' for k, v in shapes.items())}; "
-                "each must be 1 or the common number of cells"
-            )
+    shapes = {
+        "z rows": zz.shape[0],
+        "pressure": p.size if p.ndim else 1,
+        "temperature": t.size if t.ndim else 1,
+    }
+    if any(size not in (1, n) for size in shapes.values()):
+        raise InputError(
+            f"shape mismatch: {', '.join(f'{k} has {v}' for k, v in shapes.items())}; "
+            "each must be 1 or the common number of cells"
+        )
     p = np.broadcast_to(p, (n,)).astype(float)
     t = np.broadcast_to(t, (n,)).astype(float)
     zz = np.broadcast_to(zz, (n, nc)).astype(float)
@@ -153,7 +155,9 @@ def _validate(mixture, pressure, temperature, z, k_init):
         if k0.ndim == 1:
             k0 = k0[None, :]
         if k0.ndim != 2 or k0.shape[1] != nc or k0.shape[0] not in (1, n):
-            raise InputError(f"k_init has shape {np.shape(k_init)}, expected ({n}, {nc}) or ({nc},)")
+            raise InputError(
+                f"k_init has shape {np.shape(k_init)}, expected ({n}, {nc}) or ({nc},)"
+            )
         k0 = np.broadcast_to(k0, (n, nc)).astype(float)
         given = np.all(np.isfinite(k0), axis=1)
         bad = given & np.any(k0 <= 0.0, axis=1)
@@ -182,11 +186,34 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0) -> FlashResult:
     tpd = np.empty(n)
     use_k0 = k0 is not None
     _k.flash_batch(
-        model.ac, model.m, model.b, model.tc, model.pc, model.omega, model.one_minus_k,
-        model.delta1, model.delta2, np.ascontiguousarray(p), np.ascontiguousarray(t),
-        np.ascontiguousarray(z), np.ascontiguousarray(k0) if use_k0 else np.empty((1, nc)),
-        use_k0, status, phase_count, beta, x, y, ln_k, z_liq, z_vap, z_feed, iterations,
-        stab_iters, residual, balance, tpd,
+        model.ac,
+        model.m,
+        model.b,
+        model.tc,
+        model.pc,
+        model.omega,
+        model.one_minus_k,
+        model.delta1,
+        model.delta2,
+        np.ascontiguousarray(p),
+        np.ascontiguousarray(t),
+        np.ascontiguousarray(z),
+        np.ascontiguousarray(k0) if use_k0 else np.empty((1, nc)),
+        use_k0,
+        status,
+        phase_count,
+        beta,
+        x,
+        y,
+        ln_k,
+        z_liq,
+        z_vap,
+        z_feed,
+        iterations,
+        stab_iters,
+        residual,
+        balance,
+        tpd,
     )
 
     # Single-phase cells: labelled, and reported as the feed in the phase of their label.

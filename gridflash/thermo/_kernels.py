@@ -205,7 +205,11 @@ def dlnphi_cell(z, a, b, psi, sqrt_a, b_i, omk, d1, d2, out):
     c1 = a + w * b * b - u * b - u * b * b
     f_z = 3.0 * z * z + 2.0 * c2 * z + c1
     f_a = z - b
-    f_b = -(1.0 - u) * z * z + (2.0 * w * b - u - 2.0 * u * b) * z - (a + 2.0 * w * b + 3.0 * w * b * b)
+    f_b = (
+        -(1.0 - u) * z * z
+        + (2.0 * w * b - u - 2.0 * u * b) * z
+        - (a + 2.0 * w * b + 3.0 * w * b * b)
+    )
     log_term = math.log((z + d1 * b) / (z + d2 * b))
     q = a / b
     inv_delta = 1.0 / (d1 - d2)
@@ -418,8 +422,9 @@ def _gdem(x_new, x_cur, x_prev, present, out):
 
 
 @njit(**_JIT)
-def stability_trial(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, maxiter,
-                    early_exit, ks_out):
+def stability_trial(
+    z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, maxiter, early_exit, ks_out
+):
     """Iterate one trial phase (ln Ks = ln W - ln z) to a conclusion.
 
     Returns (outcome, tm, iterations); the final ln Ks is written into ``ks_out``.
@@ -541,8 +546,23 @@ def stability_trial(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, ma
 
 
 @njit(**_JIT)
-def stability_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, maxiter,
-                   early_exit, trials, trial_tm, seed):
+def stability_cell(
+    z,
+    present,
+    ln_phi_z,
+    sqrt_a,
+    b_i,
+    omk,
+    d1,
+    d2,
+    ln_kw,
+    tol,
+    maxiter,
+    early_exit,
+    trials,
+    trial_tm,
+    seed,
+):
     """Both Wilson-started trials of one cell.
 
     Returns (stable, tpd, iterations, conclusive, root_failure); fills ``trials`` (2, nc),
@@ -554,10 +574,12 @@ def stability_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, m
     neg = np.empty(nc)
     for i in range(nc):
         neg[i] = -ln_kw[i]
-    out_v, tm_v, it_v = stability_trial(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw,
-                                        tol, maxiter, early_exit, ks_v)
-    out_l, tm_l, it_l = stability_trial(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, neg,
-                                        tol, maxiter, early_exit, ks_l)
+    out_v, tm_v, it_v = stability_trial(
+        z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, maxiter, early_exit, ks_v
+    )
+    out_l, tm_l, it_l = stability_trial(
+        z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, neg, tol, maxiter, early_exit, ks_l
+    )
     unstable_v = out_v == UNSTABLE
     unstable_l = out_l == UNSTABLE
     unstable = unstable_v or unstable_l
@@ -583,8 +605,11 @@ def stability_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, m
             seed[i] = -(ks_l[i] - ln_sum_l)
     trial_tm[0] = tm_v
     trial_tm[1] = tm_l
-    tpd = min(tm_v, tm_l) if (math.isfinite(tm_v) and math.isfinite(tm_l)) else (
-        tm_v if math.isfinite(tm_v) else tm_l)
+    tpd = (
+        min(tm_v, tm_l)
+        if (math.isfinite(tm_v) and math.isfinite(tm_l))
+        else (tm_v if math.isfinite(tm_v) else tm_l)
+    )
     return (not unstable), tpd, it_v + it_l, conclusive, root_failure
 
 
@@ -605,8 +630,25 @@ def _xlogx(frac, ln_phi, present):
 
 
 @njit(**_JIT)
-def _evaluate(z, present, beta, x, y, sqrt_a, b_i, omk, d1, d2, ln_k, use_ln_k, lnphi_l,
-              lnphi_v, psi_l, psi_v, lnk_next):
+def _evaluate(
+    z,
+    present,
+    beta,
+    x,
+    y,
+    sqrt_a,
+    b_i,
+    omk,
+    d1,
+    d2,
+    ln_k,
+    use_ln_k,
+    lnphi_l,
+    lnphi_v,
+    psi_l,
+    psi_v,
+    lnk_next,
+):
     """EOS at a trial split; returns (z_l, z_v, residual, gibbs, a_l, b_l, a_v, b_v).
 
     The residual is ``max_i |ln K_i - (ln phi_i^L - ln phi_i^V)|`` over present components,
@@ -719,17 +761,49 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
     for it in range(1, max_ss + 1):
         iters = it
         beta, rr_ok = _from_lnk(z, present, lnk, x, y)
-        zl, zv, res, gibbs, _, _, _, _ = _evaluate(z, present, beta, x, y, sqrt_a, b_i, omk,
-                                                   d1, d2, lnk, True, lnphi_l, lnphi_v, psi_l,
-                                                   psi_v, lnk_next)
+        zl, zv, res, gibbs, _, _, _, _ = _evaluate(
+            z,
+            present,
+            beta,
+            x,
+            y,
+            sqrt_a,
+            b_i,
+            omk,
+            d1,
+            d2,
+            lnk,
+            True,
+            lnphi_l,
+            lnphi_v,
+            psi_l,
+            psi_v,
+            lnk_next,
+        )
         inside = rr_ok and 0.0 < beta < 1.0
         if accelerated and inside and gibbs > gibbs_prev + 1e-12 * abs(gibbs_prev):
             for i in range(nc):
                 lnk[i] = plain_next[i]
             beta, rr_ok = _from_lnk(z, present, lnk, x, y)
-            zl, zv, res, gibbs, _, _, _, _ = _evaluate(z, present, beta, x, y, sqrt_a, b_i,
-                                                       omk, d1, d2, lnk, True, lnphi_l,
-                                                       lnphi_v, psi_l, psi_v, lnk_next)
+            zl, zv, res, gibbs, _, _, _, _ = _evaluate(
+                z,
+                present,
+                beta,
+                x,
+                y,
+                sqrt_a,
+                b_i,
+                omk,
+                d1,
+                d2,
+                lnk,
+                True,
+                lnphi_l,
+                lnphi_v,
+                psi_l,
+                psi_v,
+                lnk_next,
+            )
             inside = rr_ok and 0.0 < beta < 1.0
         accelerated = False
         finite = math.isfinite(res) and math.isfinite(beta)
@@ -742,8 +816,13 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
         trivial = finite and maxlnk < TRIVIAL_LNK
         converged = finite and (not trivial) and inside and res < TOL_RESIDUAL
         newton_ok = inside and min(beta, 1.0 - beta) > NEWTON_MIN_PHASE
-        switch = finite and (not trivial) and (not converged) and newton_ok and (
-            res < (WARM_SWITCH_RESIDUAL if warm else SWITCH_RESIDUAL) or it >= SWITCH_AFTER)
+        switch = (
+            finite
+            and (not trivial)
+            and (not converged)
+            and newton_ok
+            and (res < (WARM_SWITCH_RESIDUAL if warm else SWITCH_RESIDUAL) or it >= SWITCH_AFTER)
+        )
         outside = finite and (not trivial) and (not converged) and (not switch) and (not inside)
         give_up = outside and warm and it >= 3
         last = it == max_ss
@@ -797,14 +876,16 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
         for i in range(nc):
             v0[i] = beta_o * o_y[i] if present[i] else 0.0
         status, beta_o, zl_o, zv_o, n_it, res_o, bal_o, g_o = newton_cell(
-            z, present, sqrt_a, b_i, omk, d1, d2, v0, False, o_x, o_y, o_lnk)
+            z, present, sqrt_a, b_i, omk, d1, d2, v0, False, o_x, o_y, o_lnk
+        )
         iters += n_it
     return status, beta_o, zl_o, zv_o, iters, res_o, bal_o, g_o
 
 
 @njit(**_JIT)
-def _evaluate_v(z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v,
-                lnk_next):
+def _evaluate_v(
+    z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v, lnk_next
+):
     """EOS at the split given by vapour mole numbers; returns (V, _evaluate's tuple)."""
     nc = z.shape[0]
     vs = 0.0
@@ -815,8 +896,25 @@ def _evaluate_v(z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v,
     for i in range(nc):
         y[i] = v[i] / vs
         x[i] = (z[i] - v[i]) / ls
-    out = _evaluate(z, present, vs, x, y, sqrt_a, b_i, omk, d1, d2, x, False, lnphi_l, lnphi_v,
-                    psi_l, psi_v, lnk_next)
+    out = _evaluate(
+        z,
+        present,
+        vs,
+        x,
+        y,
+        sqrt_a,
+        b_i,
+        omk,
+        d1,
+        d2,
+        x,
+        False,
+        lnphi_l,
+        lnphi_v,
+        psi_l,
+        psi_v,
+        lnk_next,
+    )
     return vs, out
 
 
@@ -860,8 +958,9 @@ def newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, v0, robust, o_x, o_y, o_ln
     iters = 0
     max_iter = (MAX_NEWTON_ROBUST if robust else MAX_NEWTON) + MAX_HALVINGS
     for _ in range(max_iter):
-        vs, ev = _evaluate_v(z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v,
-                             psi_l, psi_v, lnk_next)
+        vs, ev = _evaluate_v(
+            z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v, lnk_next
+        )
         zl, zv, res, gibbs, al, bl, av, bv = ev
         iters += 1
         finite = math.isfinite(res) and math.isfinite(gibbs)
@@ -917,7 +1016,9 @@ def newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, v0, robust, o_x, o_y, o_ln
         for i in range(nc):
             for j in range(nc):
                 if present[i] and present[j]:
-                    jac[i, j] = scale[i] * ((dv[i, j] - 1.0) / vs + (dl[i, j] - 1.0) / ls) * scale[j]
+                    jac[i, j] = (
+                        scale[i] * ((dv[i, j] - 1.0) / vs + (dl[i, j] - 1.0) / ls) * scale[j]
+                    )
                 else:
                     jac[i, j] = 0.0
             if present[i]:
@@ -970,8 +1071,23 @@ def _gibbs_descent_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o
     trials = np.empty((2, nc))
     trial_tm = np.empty(2)
     seed = np.empty(nc)
-    _, _, st_it, _, _ = stability_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw,
-                                       STAB_TOL, STAB_MAXITER, False, trials, trial_tm, seed)
+    _, _, st_it, _, _ = stability_cell(
+        z,
+        present,
+        ln_phi_z,
+        sqrt_a,
+        b_i,
+        omk,
+        d1,
+        d2,
+        ln_kw,
+        STAB_TOL,
+        STAB_MAXITER,
+        False,
+        trials,
+        trial_tm,
+        seed,
+    )
     tv = trial_tm[0] if math.isfinite(trial_tm[0]) else _INF
     tl = trial_tm[1] if math.isfinite(trial_tm[1]) else _INF
     which = 0 if tv <= tl else 1
@@ -994,8 +1110,9 @@ def _gibbs_descent_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o
                     v[i] = 0.5 * z[i]
             else:
                 v[i] = 0.0
-        _, ev = _evaluate_v(z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v,
-                            psi_l, psi_v, lnk_next)
+        _, ev = _evaluate_v(
+            z, present, v, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v, lnk_next
+        )
         g = ev[3] if math.isfinite(ev[3]) else _INF
         if first or g < best_g:
             for i in range(nc):
@@ -1003,15 +1120,43 @@ def _gibbs_descent_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o
             if g < best_g:
                 best_g = g
             first = False
-    status, beta, zl, zv, n_it, res, bal, gibbs = newton_cell(z, present, sqrt_a, b_i, omk, d1, d2,
-                                                              best_v, True, o_x, o_y, o_lnk)
+    status, beta, zl, zv, n_it, res, bal, gibbs = newton_cell(
+        z, present, sqrt_a, b_i, omk, d1, d2, best_v, True, o_x, o_y, o_lnk
+    )
     return status, beta, zl, zv, n_it + st_it, res, bal, gibbs
 
 
 @njit(**_JIT)
-def flash_batch(ac, m, b, tc, pc, omega, omk, d1, d2, p, t, z, k0, use_k0,
-                status, phase_count, beta, x, y, ln_k, z_liq, z_vap, z_feed, iterations,
-                stab_iters, residual, balance, tpd):
+def flash_batch(
+    ac,
+    m,
+    b,
+    tc,
+    pc,
+    omega,
+    omk,
+    d1,
+    d2,
+    p,
+    t,
+    z,
+    k0,
+    use_k0,
+    status,
+    phase_count,
+    beta,
+    x,
+    y,
+    ln_k,
+    z_liq,
+    z_vap,
+    z_feed,
+    iterations,
+    stab_iters,
+    residual,
+    balance,
+    tpd,
+):
     """Flash every cell; fills the output arrays (see _flash._flash_arrays)."""
     n, nc = z.shape
     sqrt_a = np.empty(nc)
@@ -1065,8 +1210,9 @@ def flash_batch(ac, m, b, tc, pc, omega, omk, d1, d2, p, t, z, k0, use_k0,
             if warm:
                 for i in range(nc):
                     lnk0[i] = math.log(k0[c, i])
-                st, bt, zl, zv, it, res, bal, g = split_cell(zc, present, sqrt_a, b_i, omk, d1,
-                                                             d2, lnk0, True, sx, sy, slnk)
+                st, bt, zl, zv, it, res, bal, g = split_cell(
+                    zc, present, sqrt_a, b_i, omk, d1, d2, lnk0, True, sx, sy, slnk
+                )
                 iterations[c] += it
                 if st == CONVERGED and 0.0 < bt < 1.0:
                     done = True
@@ -1074,8 +1220,22 @@ def flash_batch(ac, m, b, tc, pc, omega, omk, d1, d2, p, t, z, k0, use_k0,
             for i in range(nc):
                 ln_kw[i] = math.log(pc[i] / p[c]) + 5.373 * (1.0 + omega[i]) * (1.0 - tc[i] / t[c])
             stable, tpd_c, st_it, conclusive, root_failure = stability_cell(
-                zc, present, lnphi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, STAB_TOL, STAB_MAXITER,
-                True, trials, trial_tm, seed)
+                zc,
+                present,
+                lnphi_z,
+                sqrt_a,
+                b_i,
+                omk,
+                d1,
+                d2,
+                ln_kw,
+                STAB_TOL,
+                STAB_MAXITER,
+                True,
+                trials,
+                trial_tm,
+                seed,
+            )
             stab_iters[c] = st_it
             iterations[c] += st_it
             tpd[c] = tpd_c
@@ -1083,15 +1243,17 @@ def flash_batch(ac, m, b, tc, pc, omega, omk, d1, d2, p, t, z, k0, use_k0,
                 if not conclusive:
                     status[c] = ROOT_FAILURE if root_failure else MAX_ITERATIONS
                 continue
-            st, bt, zl, zv, it, res, bal, g = split_cell(zc, present, sqrt_a, b_i, omk, d1, d2,
-                                                         seed, False, sx, sy, slnk)
+            st, bt, zl, zv, it, res, bal, g = split_cell(
+                zc, present, sqrt_a, b_i, omk, d1, d2, seed, False, sx, sy, slnk
+            )
             iterations[c] += it
             if not (st == CONVERGED and 0.0 < bt < 1.0):
                 fx = np.empty(nc)
                 fy = np.empty(nc)
                 flnk = np.empty(nc)
                 st2, bt2, zl2, zv2, it2, res2, bal2, g2 = _gibbs_descent_cell(
-                    zc, present, lnphi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, fx, fy, flnk)
+                    zc, present, lnphi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, fx, fy, flnk
+                )
                 iterations[c] += it2
                 if st2 == CONVERGED and 0.0 < bt2 < 1.0:
                     st, bt, zl, zv, res, bal, g = st2, bt2, zl2, zv2, res2, bal2, g2
@@ -1148,8 +1310,7 @@ def cubic_roots_batch(a, b, d1, d2, z_max, z_min, three):
 @njit(**_JIT)
 def phase_batch(x, sqrt_a, b_i, omk, d1, d2, root, z, a, b, ln_phi, psi):
     for c in range(x.shape[0]):
-        z[c], a[c], b[c] = phase_cell(x[c], sqrt_a[c], b_i[c], omk, d1, d2, root, ln_phi[c],
-                                      psi[c])
+        z[c], a[c], b[c] = phase_cell(x[c], sqrt_a[c], b_i[c], omk, d1, d2, root, ln_phi[c], psi[c])
 
 
 @njit(**_JIT)
@@ -1159,16 +1320,37 @@ def dlnphi_batch(z, a, b, psi, sqrt_a, b_i, omk, d1, d2, out):
 
 
 @njit(**_JIT)
-def rachford_rice_batch(k, z, has_limits, lim_lo, lim_hi, tol, maxiter, beta, status, iters,
-                        residual):
+def rachford_rice_batch(
+    k, z, has_limits, lim_lo, lim_hi, tol, maxiter, beta, status, iters, residual
+):
     for c in range(k.shape[0]):
         beta[c], status[c], iters[c], residual[c] = rachford_rice_cell(
-            k[c], z[c], has_limits, lim_lo, lim_hi, tol, maxiter)
+            k[c], z[c], has_limits, lim_lo, lim_hi, tol, maxiter
+        )
 
 
 @njit(**_JIT)
-def stability_batch(z, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, maxiter, early_exit,
-                    stable, tpd, iters, conclusive, root_failure, trials, trial_tm, seed):
+def stability_batch(
+    z,
+    ln_phi_z,
+    sqrt_a,
+    b_i,
+    omk,
+    d1,
+    d2,
+    ln_kw,
+    tol,
+    maxiter,
+    early_exit,
+    stable,
+    tpd,
+    iters,
+    conclusive,
+    root_failure,
+    trials,
+    trial_tm,
+    seed,
+):
     nc = z.shape[1]
     present = np.empty(nc, dtype=np.bool_)
     tr = np.empty((2, nc))
@@ -1177,8 +1359,22 @@ def stability_batch(z, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, maxiter, 
         for i in range(nc):
             present[i] = z[c, i] > 0.0
         stable[c], tpd[c], iters[c], conclusive[c], root_failure[c] = stability_cell(
-            z[c], present, ln_phi_z[c], sqrt_a[c], b_i[c], omk, d1, d2, ln_kw[c], tol, maxiter,
-            early_exit, tr, tt, seed[c])
+            z[c],
+            present,
+            ln_phi_z[c],
+            sqrt_a[c],
+            b_i[c],
+            omk,
+            d1,
+            d2,
+            ln_kw[c],
+            tol,
+            maxiter,
+            early_exit,
+            tr,
+            tt,
+            seed[c],
+        )
         for i in range(nc):
             trials[0, c, i] = tr[0, i]
             trials[1, c, i] = tr[1, i]
@@ -1187,17 +1383,40 @@ def stability_batch(z, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, maxiter, 
 
 
 @njit(**_JIT)
-def split_batch(z, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, newton_only, robust, status, beta,
-                x, y, ln_k, z_l, z_v, iters, residual, balance, gibbs):
+def split_batch(
+    z,
+    sqrt_a,
+    b_i,
+    omk,
+    d1,
+    d2,
+    ln_k0,
+    warm,
+    newton_only,
+    robust,
+    status,
+    beta,
+    x,
+    y,
+    ln_k,
+    z_l,
+    z_v,
+    iters,
+    residual,
+    balance,
+    gibbs,
+):
     nc = z.shape[1]
     present = np.empty(nc, dtype=np.bool_)
     for c in range(z.shape[0]):
         for i in range(nc):
             present[i] = z[c, i] > 0.0
         if newton_only:
-            out = newton_cell(z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], robust,
-                              x[c], y[c], ln_k[c])
+            out = newton_cell(
+                z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], robust, x[c], y[c], ln_k[c]
+            )
         else:
-            out = split_cell(z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], warm, x[c],
-                             y[c], ln_k[c])
+            out = split_cell(
+                z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], warm, x[c], y[c], ln_k[c]
+            )
         status[c], beta[c], z_l[c], z_v[c], iters[c], residual[c], balance[c], gibbs[c] = out

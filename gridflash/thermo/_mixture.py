@@ -10,7 +10,7 @@ import numpy as np
 from .._errors import InputError
 from .._types import EosName
 from ._components import Component, builtin_component
-from ._cubic import R, CubicModel, eos_constants, kappa
+from ._cubic import CubicModel, R, eos_constants, kappa
 
 __all__ = ["EOS_NAMES", "Mixture"]
 
@@ -50,9 +50,7 @@ class Mixture:
     ) -> None:
         if isinstance(components, (str, Component)):
             components = [components]
-        comps = tuple(
-            c if isinstance(c, Component) else builtin_component(c) for c in components
-        )
+        comps = tuple(c if isinstance(c, Component) else builtin_component(c) for c in components)
         if not comps:
             raise InputError("Mixture needs at least one component")
         names = [c.name for c in comps]
@@ -171,7 +169,9 @@ def _interaction_matrix(kij: object, names: Sequence[str]) -> np.ndarray:
             if isinstance(key, str):
                 # "CO2-C1"; names may contain dashes themselves ("n-butane"), so try every dash.
                 splits = [(key[:k], key[k + 1 :]) for k, ch in enumerate(key) if ch == "-"]
-                found = [(a, b) for a, b in splits if resolve(a) is not None and resolve(b) is not None]
+                found = [
+                    (a, b) for a, b in splits if resolve(a) is not None and resolve(b) is not None
+                ]
                 pair = list(found[0]) if found else (list(splits[0]) if len(splits) == 1 else [key])
             else:
                 pair = list(key)
@@ -208,7 +208,8 @@ def _interaction_matrix(kij: object, names: Sequence[str]) -> np.ndarray:
     if asym.any():
         i, j = np.argwhere(asym)[0]
         raise InputError(
-            f"kij must be symmetric: kij[{i}, {j}] = {arr[i, j]!r} but kij[{j}, {i}] = {arr[j, i]!r}"
+            f"kij must be symmetric: kij[{i}, {j}] = {arr[i, j]!r} but "
+            f"kij[{j}, {i}] = {arr[j, i]!r}"
         )
     if np.any(np.diag(arr) != 0.0):
         raise InputError("kij diagonal must be zero")

@@ -74,9 +74,9 @@ def stiel_thodos_viscosity(tc, pc, mw, temperature):
     tr = t / tc
     xi = _xi(tc, pc, mw)
     with np.errstate(invalid="ignore"):
-        mu_cp = np.where(
-            tr <= 1.5, 34e-5 * tr**0.94, 17.78e-5 * np.abs(4.58 * tr - 1.67) ** 0.625
-        ) / xi
+        mu_cp = (
+            np.where(tr <= 1.5, 34e-5 * tr**0.94, 17.78e-5 * np.abs(4.58 * tr - 1.67) ** 0.625) / xi
+        )
     return mu_cp * 1e-3
 
 
@@ -109,14 +109,14 @@ def lbc_viscosity(tc, pc, mw, vc, temperature, x, molar_density):
     mwm = _dot(x, mw)
     xi = _xi(tpc, ppc, mwm)
     rho_r = molar_density * _dot(x, vc)
-    poly = 0.1023 + rho_r * (0.023364 + rho_r * (0.058533 + rho_r * (-0.040758 + rho_r * 0.0093324)))
+    poly = 0.1023 + rho_r * (
+        0.023364 + rho_r * (0.058533 + rho_r * (-0.040758 + rho_r * 0.0093324))
+    )
     mu = mu_star + (poly**4 - 1e-4) / xi
     return mu * 1e-3
 
 
-def phase_properties(
-    mixture, pressure, temperature, x, z_factor
-) -> PhaseProperties:
+def phase_properties(mixture, pressure, temperature, x, z_factor) -> PhaseProperties:
     """Properties of phases with composition ``x`` (rows of NaN give NaN properties).
 
     The molar volume is the EOS volume with Peneloux's shift ``v = Z R T / P - sum x_i c_i``

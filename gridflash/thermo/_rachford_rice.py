@@ -122,6 +122,17 @@ def rachford_rice(
     status = np.empty(n, dtype=np.int8)
     iterations = np.empty(n, dtype=np.int32)
     residual = np.empty(n)
-    _k.rachford_rice_batch(k, z, limits is not None, lim_lo, lim_hi, float(tol), int(maxiter),
-                           beta, status, iterations, residual)
+    _k.rachford_rice_batch(
+        k,
+        z,
+        limits is not None,
+        lim_lo,
+        lim_hi,
+        float(tol),
+        int(maxiter),
+        beta,
+        status,
+        iterations,
+        residual,
+    )
     return RachfordRiceResult(beta=beta, status=status, iterations=iterations, residual=residual)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from ._cubic import R, CubicModel, cubic_roots
+from ._cubic import CubicModel, R, cubic_roots
 
 __all__ = ["pure_vapour_pressure", "saturation_pressure"]
 
@@ -79,8 +79,9 @@ def pure_vapour_pressure(
     return p, zl, zv, conv
 
 
-def saturation_pressure(mixture, temperature, z, p_two_phase, p_one_phase, *, rtol=1e-10,
-                        maxiter=80):
+def saturation_pressure(
+    mixture, temperature, z, p_two_phase, p_one_phase, *, rtol=1e-10, maxiter=80
+):
     """Bubble- or dew-point pressure of each feed between a two-phase and a one-phase pressure.
 
     The boundary is located by bisection in ``ln P`` on the phase count of the full flash
@@ -116,8 +117,9 @@ def saturation_pressure(mixture, temperature, z, p_two_phase, p_one_phase, *, rt
     lo = np.log(np.asarray(p_two_phase, dtype=float))  # inside (two-phase) end
     hi = np.log(np.asarray(p_one_phase, dtype=float))  # outside (one-phase) end
     n = t.shape[0]
-    check = flash(mixture, np.exp(np.concatenate([lo, hi])), np.concatenate([t, t]),
-                  np.concatenate([zz, zz]))
+    check = flash(
+        mixture, np.exp(np.concatenate([lo, hi])), np.concatenate([t, t]), np.concatenate([zz, zz])
+    )
     valid = (check.phase_count[:n] == 2) & (check.phase_count[n:] == 1)
     valid &= check.converged[:n] & check.converged[n:] & (np.sum(zz > 0.0, axis=1) > 1)
     for _ in range(maxiter):
@@ -133,8 +135,12 @@ def saturation_pressure(mixture, temperature, z, p_two_phase, p_one_phase, *, rt
         hi[idx[~two]] = mid[~two]
     inside = flash(mixture, np.exp(lo), t, zz)
     beta = inside.vapour_fraction
-    kind = np.where(valid & (inside.phase_count == 2), np.where(beta < 0.5, 1, 2), 0).astype(np.int8)
-    incipient = np.where((kind == 1)[:, None], inside.y, np.where((kind == 2)[:, None], inside.x, np.nan))
+    kind = np.where(valid & (inside.phase_count == 2), np.where(beta < 0.5, 1, 2), 0).astype(
+        np.int8
+    )
+    incipient = np.where(
+        (kind == 1)[:, None], inside.y, np.where((kind == 2)[:, None], inside.x, np.nan)
+    )
     pressure = np.where(valid, np.exp(0.5 * (lo + hi)), np.nan)
     pure = np.sum(zz > 0.0, axis=1) == 1
     if pure.any():

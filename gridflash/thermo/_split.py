@@ -53,16 +53,41 @@ def _run(model, sqrt_a, b_i, z, start, *, warm=False, newton_only=False, robust=
     z = np.ascontiguousarray(z, dtype=float)
     n, nc = z.shape
     out = SplitResult(
-        status=np.empty(n, dtype=np.int8), beta=np.empty(n), x=np.empty((n, nc)),
-        y=np.empty((n, nc)), ln_k=np.empty((n, nc)), z_liquid=np.empty(n), z_vapour=np.empty(n),
-        iterations=np.empty(n, dtype=np.int32), residual=np.empty(n),
-        material_balance=np.empty(n), gibbs=np.empty(n),
+        status=np.empty(n, dtype=np.int8),
+        beta=np.empty(n),
+        x=np.empty((n, nc)),
+        y=np.empty((n, nc)),
+        ln_k=np.empty((n, nc)),
+        z_liquid=np.empty(n),
+        z_vapour=np.empty(n),
+        iterations=np.empty(n, dtype=np.int32),
+        residual=np.empty(n),
+        material_balance=np.empty(n),
+        gibbs=np.empty(n),
     )
-    _k.split_batch(z, np.ascontiguousarray(sqrt_a), np.ascontiguousarray(b_i), model.one_minus_k,
-                   model.delta1, model.delta2, np.ascontiguousarray(start, dtype=float),
-                   bool(warm), bool(newton_only), bool(robust), out.status, out.beta, out.x,
-                   out.y, out.ln_k, out.z_liquid, out.z_vapour, out.iterations, out.residual,
-                   out.material_balance, out.gibbs)
+    _k.split_batch(
+        z,
+        np.ascontiguousarray(sqrt_a),
+        np.ascontiguousarray(b_i),
+        model.one_minus_k,
+        model.delta1,
+        model.delta2,
+        np.ascontiguousarray(start, dtype=float),
+        bool(warm),
+        bool(newton_only),
+        bool(robust),
+        out.status,
+        out.beta,
+        out.x,
+        out.y,
+        out.ln_k,
+        out.z_liquid,
+        out.z_vapour,
+        out.iterations,
+        out.residual,
+        out.material_balance,
+        out.gibbs,
+    )
     return out
 
 

@@ -121,11 +121,34 @@ def stability_test(
     trials = np.empty((2, n, nc))
     trial_tm = np.empty((2, n))
     seed = np.empty((n, nc))
-    _k.stability_batch(z, np.ascontiguousarray(ln_phi_z), np.ascontiguousarray(sqrt_a),
-                       np.ascontiguousarray(b_i), model.one_minus_k, model.delta1, model.delta2,
-                       np.ascontiguousarray(ln_k_wilson), float(tol), int(maxiter),
-                       bool(early_exit), stable, tpd, iterations, conclusive, root_failure,
-                       trials, trial_tm, seed)
-    return StabilityResult(stable=stable, tpd=tpd, ln_k_seed=seed, iterations=iterations,
-                           conclusive=conclusive, root_failure=root_failure, trials=trials,
-                           trial_tm=trial_tm)
+    _k.stability_batch(
+        z,
+        np.ascontiguousarray(ln_phi_z),
+        np.ascontiguousarray(sqrt_a),
+        np.ascontiguousarray(b_i),
+        model.one_minus_k,
+        model.delta1,
+        model.delta2,
+        np.ascontiguousarray(ln_k_wilson),
+        float(tol),
+        int(maxiter),
+        bool(early_exit),
+        stable,
+        tpd,
+        iterations,
+        conclusive,
+        root_failure,
+        trials,
+        trial_tm,
+        seed,
+    )
+    return StabilityResult(
+        stable=stable,
+        tpd=tpd,
+        ln_k_seed=seed,
+        iterations=iterations,
+        conclusive=conclusive,
+        root_failure=root_failure,
+        trials=trials,
+        trial_tm=trial_tm,
+    )

@@ -35,7 +35,9 @@ def peneloux_shift(mixture) -> np.ndarray:
         p, zl, _, ok = pure_vapour_pressure(model, todo, t)
         v_eos = zl * R * t / p
         zra = np.array([mixture.components[i].rackett_z for i in todo])
-        v_rackett = R * model.tc[todo] / model.pc[todo] * zra ** (1.0 + (1.0 - _TR_MATCH) ** (2.0 / 7.0))
+        v_rackett = (
+            R * model.tc[todo] / model.pc[todo] * zra ** (1.0 + (1.0 - _TR_MATCH) ** (2.0 / 7.0))
+        )
         shift = np.where(ok, v_eos - v_rackett, 0.0)
         out[todo] = shift
     assert out.shape == (nc,)
