@@ -365,7 +365,10 @@ def _connect(address: str | None, kind: str, n_workers: int) -> Iterator[object]
         n_workers=n_workers if processes else 1,
         threads_per_worker=1 if processes else n_workers,
         processes=processes,
-        dashboard_address=None,
+        # No dashboard; the scheduler's small HTTP server (health, metrics) on a free loopback
+        # port instead of 8787, which another cluster may hold.
+        dashboard_address="127.0.0.1:0",
+        scheduler_kwargs={"dashboard": False},
         silence_logs=logging.ERROR,
     )
     try:

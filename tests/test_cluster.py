@@ -165,3 +165,75 @@ def test_killed_run_resumes(medium, tmp_path, seed, kind):
     assert f"{12 - complete} computed, {complete} reused" in out
     assert_stores_identical(reference, store)
     assert read_root_attrs(store)["run_sessions"] == 2
+
+
+@pytest.fixture
+def in_process_scheduler():
+    """A threads-only LocalCluster in this process, used through its address."""
+    from distributed import LocalCluster
+
+    clusters = []
+
+    def make(n_workers: int) -> str:
+        cluster = LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=False,
+                               dashboard_address="127.0.0.1:0",
+                               scheduler_kwargs={"dashboard": False})
+        clusters.append(cluster)
+        return cluster.scheduler_address
+
+    yield make
+    for cluster in clusters:
+        cluster.close()
+
+
+def test_workers_that_cannot_see_the_store(tmp_path, monkeypatch, in_process_scheduler):
+    from gridflash import StoreError
+    from gridflash._config import load_config
+    from gridflash._runner import run
+
+    address = in_process_scheduler(1)
+    monkeypatch.setattr("gridflash._runner._sees_store", lambda path: False)
+    spec = load_config(write_config(tmp_path))
+    with pytest.raises(StoreError, match="cannot see the store .* every worker shares") as info:
+        run(spec, scheduler_address=address)
+    assert "\n" not in str(info.value)
+    assert read_root_attrs(tmp_path / "out.zarr")["run_state"] == "running"
+
+
+def test_scheduler_without_workers(tmp_path, monkeypatch, in_process_scheduler):
+    from gridflash import GridflashError
+    from gridflash._config import load_config
+    from gridflash._runner import run
+
+    monkeypatch.setattr("gridflash._runner._WORKER_TIMEOUT", 1.0)
+    address = in_process_scheduler(0)
+    with pytest.raises(GridflashError, match="has no workers after 1 s"):
+        run(load_config(write_config(tmp_path)), scheduler_address=address)
+
+
+def test_failed_write_is_one_line_and_leaves_the_run_unfinished(tmp_path, monkeypatch):
+    """A full disk (ENOSPC from a block's write) stops the run; the store says it is running."""
+    import errno
+
+    import gridflash
+    from gridflash import StoreError
+    from gridflash._config import load_config
+    from gridflash._runner import run
+    from gridflash._store import write_block
+
+    def full_disk(path, plan, block, result):
+        if block == (1, 1, 0):
+            raise OSError(errno.ENOSPC, "No space left on device")
+        write_block(path, plan, block, result)
+
+    monkeypatch.setattr("gridflash._runner.write_block", full_disk)
+    spec = load_config(write_config(tmp_path))
+    with pytest.raises(StoreError, match=r"block \(1, 1, 0\).*No space left.*--resume") as info:
+        run(spec)
+    assert "\n" not in str(info.value)
+    assert read_root_attrs(tmp_path / "out.zarr")["run_state"] == "running"
+    with pytest.raises(StoreError, match="has not finished"):
+        gridflash.open_table(tmp_path / "out.zarr")
+    monkeypatch.undo()
+    summary = run(spec, resume=True)
+    assert summary.blocks_computed >= 1 and summary.blocks_reused + summary.blocks_computed == 4
