@@ -1,9 +1,9 @@
 """Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
 
 Run: ``python benchmarks/bench_runner.py [--quick]``. For each case it starts ``gridflash run``
-as a subprocess with local worker processes, samples the resident memory (RSS) of the whole
-process tree (driver, workers, everything they start) every 50 ms, and prints wall time,
-cells/s and peak RSS. Baselines measured in this same process:
+as a subprocess with local worker processes (or threads), samples the resident memory (RSS) of
+the whole process tree (driver, workers, everything they start) every 50 ms, and prints wall
+time, cells/s and peak RSS. Baselines measured in this same process:
 
 - kernel: one direct ``gridflash.flash`` call on 20 000 cells of the same grid (one core), so the
   run's cells/s is printed as a ratio to ``cores x`` the kernel's rate;
@@ -160,11 +160,12 @@ def main() -> None:
     big = (50, 50, 50) if args.quick else (100, 100, 100)
     small = (big[0], big[1] // 2, big[2] // 4)  # 8x fewer cells, same chunks
     print(f"cores: {cores}  gridflash {gridflash.__version__}  grid {big} = "
-          f"{int(np.prod(big)):,} cells, 8 components, local processes on every core")
+          f"{int(np.prod(big)):,} cells, 8 components, one local worker per core")
     base = kernel_rate()
     print(f"baseline: direct flash on 20,000 cells, one core: {base:,.0f} cells/s")
     cases = [
         ("config default chunks", big, ""),
+        ("config default chunks, --threads", big, "", ["--threads"]),
         ("chunks 13 x 50 x 100", big, "chunks = { pressure = 13, temperature = 50, "
          "composition = 100 }"),
         ("chunks 13 x 50 x 100, cold", big, "chunks = { pressure = 13, temperature = 50, "
@@ -173,8 +174,8 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
         results = {}
-        for label, shape, chunks in cases:
-            r = run_case(folder, shape, chunks)
+        for label, shape, chunks, *extra in cases:
+            r = run_case(folder, shape, chunks, *extra)
             results[label] = r
             print(f"\n{label}: chunks {r['chunks']} ({r['blocks']} blocks); load average "
                   f"{os.getloadavg()[0]:.2f} after the run")
