@@ -58,6 +58,7 @@ __all__ = [
     "finish_store",
     "is_gridflash_store",
     "mark_block_complete",
+    "mixture_from_store",
     "read_root_attrs",
     "remove_store",
     "set_run_state",
@@ -466,6 +467,66 @@ def _open_group(path: Path, mode: str) -> zarr.Group:
 def read_root_attrs(path: Path) -> dict[str, Any]:
     """Root attributes of a store, read from its own metadata (not the consolidated copy)."""
     return dict(_open_group(path, "r").attrs)
+
+
+def mixture_from_store(source: xr.Dataset | Mapping[str, Any] | str | os.PathLike[str]):
+    """The :class:`~gridflash.Mixture` a store was computed with, rebuilt from its attributes.
+
+    Reads the root attributes ``eos``, ``components`` (the records :func:`create_store` wrote:
+    critical constants, acentric factor, molar mass, critical volume, Rackett Z and the Peneloux
+    shift actually used) and ``kij``. A component whose shift is not reproduced by its Rackett Z
+    (one given explicitly as ``volume_shift``) gets the stored shift as ``c / b``.
+
+    Parameters
+    ----------
+    source : xarray.Dataset, mapping or path
+        A table from :func:`gridflash.open_table`, its ``attrs``, or the store's path.
+
+    Returns
+    -------
+    Mixture
+
+    Raises
+    ------
+    StoreError
+        If the attributes are missing or malformed.
+    """
+    from dataclasses import replace
+
+    from .thermo import Component, Mixture
+
+    if isinstance(source, xr.Dataset):
+        attrs: Mapping[str, Any] = source.attrs
+    elif isinstance(source, Mapping):
+        attrs = source
+    else:
+        attrs = read_root_attrs(Path(source))
+    try:
+        records = json.loads(attrs["components"])
+        kij = np.array(json.loads(attrs["kij"]), dtype=float)
+        eos = str(attrs["eos"])
+        components = [
+            Component(r["name"], tc=float(r["critical_temperature_K"]),
+                      pc=float(r["critical_pressure_Pa"]), omega=float(r["acentric_factor"]),
+                      mw=float(r["molar_mass_g_per_mol"]),
+                      vc=float(r["critical_volume_m3_per_mol"]), zra=float(r["rackett_z"]),
+                      source=str(r.get("source") or "user-defined"))
+            for r in records
+        ]
+        shift = np.array([float(r["volume_shift_m3_per_mol"]) for r in records])
+    except (KeyError, TypeError, ValueError) as exc:
+        raise StoreError(
+            f"the store's fluid attributes (eos, components, kij) are missing or malformed "
+            f"({exc!r}); it was not written by this version of gridflash"
+        ) from None
+    mixture = Mixture(components, eos=eos, kij=kij)  # type: ignore[arg-type]
+    differs = ~np.isclose(mixture.volume_shift, shift, rtol=1e-12, atol=0.0)
+    if differs.any():
+        b = mixture.model.b
+        components = [replace(c, volume_shift=float(shift[i] / b[i])) if differs[i] else c
+                      for i, c in enumerate(components)]
+        mixture = Mixture(components, eos=eos, kij=kij)  # type: ignore[arg-type]
+    return mixture
 
 
 def completed_blocks(path: Path, plan: ChunkPlan) -> np.ndarray:
