@@ -14,7 +14,7 @@ import numpy as np
 from ._types import SchedulerKind
 from .thermo import Component, Mixture
 
-__all__ = ["Axis", "CompositionAxis", "FluidSpec", "RunOptions", "RunSpec"]
+__all__ = ["Axis", "CompositionAxis", "FluidSpec", "RunOptions", "RunSpec", "SampleDesign"]
 
 
 @dataclass(frozen=True)
@@ -84,6 +84,31 @@ class RunOptions:
 
 
 @dataclass(frozen=True)
+class SampleDesign:
+    """Sampling mode: ``points`` cells drawn by a scrambled low-discrepancy sequence.
+
+    Built from the config's ``[sampling]`` table and the ranges of ``[pressure]``,
+    ``[temperature]`` and ``[composition]``; ``gridflash._sampling.sample_inputs`` turns a range
+    of sample indices into cell inputs (the mapping is documented there).
+    """
+
+    points: int
+    sequence: str  # "sobol" or "halton", both scrambled
+    seed: int
+    pressure: tuple[float, float]  # Pa, (start, stop) of the sampled range
+    temperature: tuple[float, float]  # K
+    composition: str  # "mixing" (ratio between two streams) or "simplex" (three or more)
+    streams: tuple[str, ...]
+    stream_compositions: tuple[tuple[float, ...], ...]  # (n_streams, n_components)
+    mixing_ratio: tuple[float, float] = (0.0, 1.0)  # range of the second stream's share
+
+    @property
+    def dimension(self) -> int:
+        """Dimension of the unit cube the sequence fills (pressure, temperature, composition)."""
+        return 3 if self.composition == "mixing" else 1 + len(self.streams)
+
+
+@dataclass(frozen=True)
 class RunSpec:
     """A whole validated run description."""
 
@@ -95,12 +120,20 @@ class RunSpec:
     run: RunOptions
     config_text: str = field(repr=False)
     config_hash: str = ""
+    #: Sampling mode (the config has ``[sampling]``): the cells are the design's samples, the
+    #: three axes above hold only the ends of the sampled ranges (and the simplex corners), and
+    #: the store has the single dimension ``sample``.
+    sampling: SampleDesign | None = None
 
     @property
-    def dims(self) -> tuple[str, str, str]:
-        """Grid dimensions in store order."""
+    def dims(self) -> tuple[str, ...]:
+        """Grid dimensions in store order (``("sample",)`` in sampling mode)."""
+        if self.sampling is not None:
+            return ("sample",)
         return ("pressure", "temperature", self.composition.name)
 
     @property
-    def shape(self) -> tuple[int, int, int]:
+    def shape(self) -> tuple[int, ...]:
+        if self.sampling is not None:
+            return (self.sampling.points,)
         return (len(self.pressure), len(self.temperature), len(self.composition))
