@@ -8,6 +8,9 @@ The key reference is ``docs/config.md``; the annotated examples are in ``configs
     [temperature]  unit, and either start/stop/count or values
     [composition]  kind = "mixing" | "simplex" | "list", streams, and the kind's own keys
     [run]          output, chunks, workers, scheduler, scheduler_address, sweep, warm_start
+    [sampling]     optional: points, sequence, seed -- N samples drawn by a scrambled
+                   low-discrepancy sequence over the ranges start..stop of [pressure],
+                   [temperature] and [composition] instead of the full grid
 
 Every problem raises :class:`~gridflash._errors.ConfigError` with a one-line message that starts
 with the config's source, names the full dotted key and the bad value (``!r``), and says what is
@@ -44,7 +47,9 @@ import numpy as np
 
 from ._errors import ConfigError, InputError
 from ._grid import list_axis, mixing_axis, simplex_axis, simplex_size
-from ._spec import Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec
+from ._heavy_end import HeavyEnd, parse_heavy_end
+from ._sampling import SEQUENCES
+from ._spec import Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec, SampleDesign
 from ._units import (
     PRESSURE_UNITS,
     TEMPERATURE_UNITS,
@@ -60,6 +65,7 @@ from .thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_na
 __all__ = [
     "MAX_AXIS_POINTS",
     "MAX_COMPOSITION_POINTS",
+    "MAX_SAMPLE_POINTS",
     "SUM_TOLERANCE",
     "canonical_config",
     "canonical_json",
@@ -74,11 +80,15 @@ SUM_TOLERANCE = 1e-6
 MAX_AXIS_POINTS = 1_000_000
 #: Largest number of points on the composition axis (each point stores a feed composition).
 MAX_COMPOSITION_POINTS = 100_000
+#: Largest ``sampling.points`` (each sample stores its own feed composition).
+MAX_SAMPLE_POINTS = 1_000_000
+#: Keys of the optional ``[sampling]`` table.
+_SAMPLING_KEYS = ("points", "sequence", "seed")
 #: Upper bound accepted for ``run.workers``.
 _MAX_WORKERS = 100_000
 
 _TOP_KEYS = ("fluid", "streams", "pressure", "temperature", "composition", "run")
-_FLUID_KEYS = ("eos", "components", "kij")
+_FLUID_KEYS = ("eos", "components", "kij", "heavy_end")
 _PSEUDO_REQUIRED = ("name", "tc", "tc_unit", "pc", "pc_unit", "omega", "mw")
 _PSEUDO_KEYS = (*_PSEUDO_REQUIRED, "vc", "vc_unit", "zra", "volume_shift", "source")
 _STREAM_KEYS = ("mole_fractions", "normalise")
@@ -387,21 +397,27 @@ class _Parser:
         self.text = text
         self.base_dir = Path(base_dir) if base_dir is not None else None
         self.canonical: dict[str, Any] = {}
+        self.sampling: dict[str, Any] | None = None  # the parsed [sampling] table, if any
 
     # -- top level --------------------------------------------------------------------------
 
     def run(self) -> tuple[RunSpec, dict[str, Any]]:
         doc = _load_toml(self.text)
-        _check_keys(doc, "", _TOP_KEYS)
+        self.doc = doc
+        _check_keys(doc, "", (*_TOP_KEYS, "sampling"))
         for key in _TOP_KEYS:
             if key not in doc:
                 _missing(key, f"add a [{key}] table (see docs/config.md)")
             _table(doc[key], key, f"a [{key}] table")
+        if "sampling" in doc:
+            sampling = _table(doc["sampling"], "sampling", "a [sampling] table")
+            self.sampling = self._sampling(sampling)
         fluid = self._fluid(doc["fluid"])
         streams = self._streams(doc["streams"])
         pressure = self._pressure(doc["pressure"])
         temperature = self._temperature(doc["temperature"])
         composition = self._composition(doc["composition"], streams)
+        design = self._design(streams, pressure, temperature, composition)
         options = self._run(doc["run"], pressure, temperature, composition)
         canonical = self.canonical
         text = canonical_json(canonical)
@@ -414,6 +430,8 @@ class _Parser:
             run=options,
             config_text=str(self.text),
             config_hash=hashlib.sha256(text.encode("ascii")).hexdigest(),
+            sampling=design,
+            heavy_end=self.heavy,
         )
         return spec, json.loads(text)
 
@@ -458,18 +476,41 @@ class _Parser:
                         f"is the same component as fluid.components[{j}]; list each component once",
                     )
             components.append(comp)
+        written = [
+            e if isinstance(e, str) else c.name for e, c in zip(entries, components, strict=True)
+        ]
+        self.heavy: HeavyEnd | None = None
+        if "heavy_end" in table:
+            # A plus-fraction characterised into pseudo-components appended to the components.
+            self.heavy = parse_heavy_end(
+                table["heavy_end"], tuple(components), self.doc.get("streams"), _check_keys
+            )
+            components.extend(self.heavy.pseudo_components)
+            written.extend(c.name for c in self.heavy.pseudo_components)
         self.components = tuple(components)
         self.names = tuple(c.name for c in components)
-        self.written = tuple(
-            e if isinstance(e, str) else c.name for e, c in zip(entries, components, strict=True)
-        )
+        self.written = tuple(written)
         kij, canon_kij = self._kij(table.get("kij"))
+        if self.heavy is not None:
+            given = {tuple(pair.split("-", 1)) for pair in canon_kij}
+            for (a, b), value in self.heavy.fluid.kij.items():
+                if (a, b) in given or (b, a) in given:
+                    continue  # a pair given in fluid.kij takes precedence
+                i, j = self.names.index(a), self.names.index(b)
+                kij[i, j] = kij[j, i] = value
         try:
             Mixture(self.components, eos=eos, kij=kij)  # type: ignore[arg-type]
         except InputError as exc:
             raise ConfigError(f"fluid: {exc}") from None
         self.canonical["fluid"] = {"eos": eos, "components": canon_components, "kij": canon_kij}
-        return FluidSpec(components=self.components, eos=eos, kij=tuple(map(tuple, kij.tolist())))
+        if self.heavy is not None:
+            self.canonical["fluid"]["heavy_end"] = self.heavy.canonical
+        return FluidSpec(
+            components=self.components,
+            eos=eos,
+            kij=tuple(map(tuple, kij.tolist())),
+            provenance=self.heavy.provenance() if self.heavy is not None else (),
+        )
 
     def _builtin(self, name: str, key: str) -> Component:
         try:
@@ -699,6 +740,16 @@ class _Parser:
         z = np.zeros(nc)
         given: list[str | None] = [None] * nc
         upper = "a mole fraction >= 0" if normalise else "a mole fraction between 0 and 1"
+        heavy_total = 0.0
+        if isinstance(value, dict) and self.heavy is not None:
+            # Heavy-end entries (plus-fraction, measured cuts) go to the pseudo-components.
+            rest = {}
+            for comp, v in value.items():
+                if isinstance(comp, str) and self.heavy.is_label(comp):
+                    heavy_total += self._fraction_value(v, _join(key, comp), normalise, upper)
+                else:
+                    rest[comp] = v
+            value = rest
         if isinstance(value, dict):
             for comp, v in value.items():
                 ckey = _join(key, comp)
@@ -727,6 +778,13 @@ class _Parser:
                 "is not a table of mole fractions by component (e.g. { C1 = 0.9, C2 = 0.1 }) "
                 "nor a list with one fraction per component",
             )
+        if heavy_total > 0.0:
+            assert self.heavy is not None
+            pseudo = slice(self.heavy.n_light, self.heavy.n_light + len(self.heavy.shares))
+            if np.any(z[pseudo] > 0.0):
+                _bad(key, value, "gives both heavy-end entries and pseudo-component fractions; "
+                     "give one or the other")
+            z[pseudo] = heavy_total * self.heavy.shares
         total = float(z.sum())
         if normalise:
             if total <= 0.0:
@@ -760,8 +818,10 @@ class _Parser:
         """Values of an axis in the config's unit, from ``values`` or ``start/stop/count``.
 
         ``check(value, key)`` validates one number (and its unit conversion) and raises with the
-        key named.
+        key named. In sampling mode the values are the ends of the sampled range.
         """
+        if self.sampling is not None:
+            return self._sample_range(table, path, what, check)
         if "values" in table:
             extra = [k for k in _RANGE_KEYS if k in table]
             if extra:
@@ -872,6 +932,13 @@ class _Parser:
         if "kind" not in table:
             _missing("composition.kind", f"choose one of {', '.join(map(repr, kinds))}")
         kind = _choice(table["kind"], "composition.kind", kinds)
+        if self.sampling is not None and kind == "list":
+            _bad(
+                "composition.kind",
+                kind,
+                "cannot be sampled; with [sampling] use 'mixing' (a range of mixing ratios of "
+                "two streams) or 'simplex' (every mixture of three or more streams)",
+            )
         for key in table:
             if key not in _COMPOSITION_KEYS[kind]:
                 raise ConfigError(
@@ -957,6 +1024,14 @@ class _Parser:
                 "must name at least three streams for kind = 'simplex'; use kind = 'mixing' "
                 "for two",
             )
+        if self.sampling is not None:
+            if "divisions" in table:
+                raise ConfigError(
+                    "composition.divisions is not used with [sampling]: the samples cover the "
+                    "whole simplex of the streams; remove it"
+                )
+            # The corners (the streams themselves); the samples are drawn inside.
+            return simplex_axis(names, np.array([streams[n] for n in names]), 1)
         if "divisions" not in table:
             _missing(
                 "composition.divisions",
@@ -1039,16 +1114,19 @@ class _Parser:
         if not output.is_absolute():
             base = self.base_dir if self.base_dir is not None else Path.cwd()
             output = base.absolute() / output
-        dims = ("pressure", "temperature", composition.name)
-        lengths = {
-            "pressure": len(pressure),
-            "temperature": len(temperature),
-            composition.name: len(composition),
-        }
-        sweep_choices = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, composition.name)))
-        sweep = _choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
-        sweep_dim = composition.name if sweep == "composition" else sweep
-        chunks = self._chunks(table.get("chunks", {}), dims, lengths)
+        if self.sampling is not None:
+            sweep_dim, chunks = self._sample_run(table)
+        else:
+            dims = ("pressure", "temperature", composition.name)
+            lengths = {
+                "pressure": len(pressure),
+                "temperature": len(temperature),
+                composition.name: len(composition),
+            }
+            sweep_choices = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, composition.name)))
+            sweep = _choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
+            sweep_dim = composition.name if sweep == "composition" else sweep
+            chunks = self._chunks(table.get("chunks", {}), dims, lengths)
         workers = None
         if "workers" in table:
             workers = _int(table["workers"], "run.workers", 1, _MAX_WORKERS, "a number of workers")
@@ -1081,6 +1159,104 @@ class _Parser:
             scheduler_address=address,
             warm_start=warm_start,
         )
+
+    # -- sampling mode -----------------------------------------------------------------------
+
+    def _sampling(self, table: dict[str, Any]) -> dict[str, Any]:
+        _check_keys(table, "sampling", _SAMPLING_KEYS)
+        if "points" not in table:
+            _missing(
+                "sampling.points",
+                f"give the number of samples to draw (an integer 1 to {MAX_SAMPLE_POINTS})",
+            )
+        points = _int(table["points"], "sampling.points", 1, MAX_SAMPLE_POINTS,
+                      "a number of samples")
+        sequence = _choice(table.get("sequence", "sobol"), "sampling.sequence", SEQUENCES,
+                           fold_case=True)
+        if "seed" not in table:
+            _missing(
+                "sampling.seed",
+                "give an integer >= 0 that seeds the scrambling (the same seed always draws "
+                "the same samples)",
+            )
+        seed = _int(table["seed"], "sampling.seed", 0, None, "a seed for the scrambling")
+        out = {"points": points, "sequence": sequence, "seed": seed}
+        self.canonical["sampling"] = dict(out)
+        return out
+
+    def _sample_range(
+        self, table: dict[str, Any], path: str, what: str, check: Any
+    ) -> tuple[np.ndarray, dict[str, Any]]:
+        for key in ("count", "values"):
+            if key in table:
+                raise ConfigError(
+                    f"{_join(path, key)} is not used with [sampling]: give the sampled range as "
+                    f"{path}.start and {path}.stop (the number of samples is sampling.points)"
+                )
+        for key in ("start", "stop"):
+            if key not in table:
+                _missing(
+                    _join(path, key),
+                    f"with [sampling] give the sampled range as {path}.start and {path}.stop",
+                )
+        start = _float(table["start"], f"{path}.start", what)
+        stop = _float(table["stop"], f"{path}.stop", what)
+        check(start, f"{path}.start")
+        check(stop, f"{path}.stop")
+        if stop < start:
+            _bad(
+                f"{path}.stop",
+                table["stop"],
+                f"is less than {path}.start = {table['start']!r}; give the sampled range in "
+                "increasing order (stop = start fixes the value)",
+            )
+        return np.array([start, stop]), {"start": start, "stop": stop}
+
+    def _design(
+        self,
+        streams: dict[str, np.ndarray],
+        pressure: Axis,
+        temperature: Axis,
+        composition: CompositionAxis,
+    ) -> SampleDesign | None:
+        if self.sampling is None:
+            return None
+        mixing = composition.name == "mixing_ratio"
+        return SampleDesign(
+            points=self.sampling["points"],
+            sequence=self.sampling["sequence"],
+            seed=self.sampling["seed"],
+            pressure=(pressure.values[0], pressure.values[-1]),
+            temperature=(temperature.values[0], temperature.values[-1]),
+            composition="mixing" if mixing else "simplex",
+            streams=composition.streams,
+            stream_compositions=tuple(
+                tuple(float(v) for v in streams[name]) for name in composition.streams
+            ),
+            mixing_ratio=(
+                (composition.values[0], composition.values[-1]) if mixing else (0.0, 1.0)
+            ),
+        )
+
+    def _sample_run(self, table: dict[str, Any]) -> tuple[str, tuple[tuple[str, int], ...]]:
+        assert self.sampling is not None
+        if "sweep" in table:
+            raise ConfigError(
+                "run.sweep is not used with [sampling]: each sample is warm-started from the "
+                "nearest sample computed before it in its chunk (see docs/config.md); remove it"
+            )
+        value = table.get("chunks", {})
+        chunks = _table(value, "run.chunks", "a table of chunk lengths, e.g. { sample = 4096 }")
+        for key in chunks:
+            if key != "sample":
+                raise ConfigError(
+                    f"{_join('run.chunks', str(key))} is not a dimension of a sampling run; its "
+                    "one dimension is sample: give run.chunks.sample (samples per chunk)"
+                )
+        if "sample" not in chunks:
+            return "sample", ()
+        n = _int(chunks["sample"], "run.chunks.sample", 1, None, "a chunk length in samples")
+        return "sample", (("sample", min(n, self.sampling["points"])),)
 
     def _chunks(
         self,

@@ -24,6 +24,8 @@ class FluidSpec:
     components: tuple[Component, ...]
     eos: str
     kij: tuple[tuple[float, ...], ...]
+    #: Methods behind derived components (e.g. a characterised plus-fraction), as (key, text).
+    provenance: tuple[tuple[str, str], ...] = ()
 
     def mixture(self) -> Mixture:
         return Mixture(self.components, eos=self.eos, kij=np.array(self.kij))  # type: ignore[arg-type]
@@ -124,6 +126,9 @@ class RunSpec:
     #: three axes above hold only the ends of the sampled ranges (and the simplex corners), and
     #: the store has the single dimension ``sample``.
     sampling: SampleDesign | None = None
+    #: The characterised plus-fraction (``_heavy_end.HeavyEnd``) when the config has
+    #: ``[fluid.heavy_end]``; its pseudo-components are already in ``fluid``.
+    heavy_end: object | None = field(default=None, repr=False, compare=False)
 
     @property
     def dims(self) -> tuple[str, ...]:

@@ -299,6 +299,7 @@ def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
         "eos": spec.fluid.eos,
         "components": json.dumps(_component_records(spec)),
         "kij": json.dumps([list(row) for row in spec.fluid.kij]),
+        "fluid_provenance": json.dumps(dict(spec.fluid.provenance)),
         "sweep": plan.sweep,
         "warm_start": int(spec.run.warm_start),
         "chunks": list(plan.chunks),
@@ -312,9 +313,12 @@ def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
 
 
 def _template(spec: RunSpec, plan: ChunkPlan) -> tuple[xr.Dataset, dict[str, dict[str, Any]]]:
-    dims = plan.dims
-    comp_dim = dims[2]
-    nc = len(spec.fluid.components)
+    if spec.sampling is not None:
+        from ._sample_store import sample_coordinates
+
+        coords, data, encoding, attrs = sample_coordinates(spec, plan, _COMPRESSORS)
+        return _with_cell_variables(spec, plan, coords, data, encoding, attrs)
+    comp_dim = plan.dims[2]
     coords: dict[str, Any] = {
         "pressure": ("pressure", np.asarray(spec.pressure.values, dtype=float),
                      {"units": "Pa", "long_name": "pressure (absolute)"}),
@@ -340,7 +344,20 @@ def _template(spec: RunSpec, plan: ChunkPlan) -> tuple[xr.Dataset, dict[str, dic
         data["stream_composition"] = (
             ("stream", "component"), np.array([by_name[s] for s in mixed], dtype=float),
             {"units": "1", "long_name": "mole fraction of each component in the stream"})
-    encoding: dict[str, dict[str, Any]] = {}
+    return _with_cell_variables(spec, plan, coords, data, {}, {})
+
+
+def _with_cell_variables(
+    spec: RunSpec,
+    plan: ChunkPlan,
+    coords: dict[str, Any],
+    data: dict[str, Any],
+    encoding: dict[str, dict[str, Any]],
+    attrs: dict[str, Any],
+) -> tuple[xr.Dataset, dict[str, dict[str, Any]]]:
+    """The template: given coordinates and inputs plus the lazy per-cell variables and marks."""
+    dims = plan.dims
+    nc = len(spec.fluid.components)
     grid_chunks = plan.dask_chunks()
     for var in VARIABLES:
         var_dims = dims + (("component",) if var.per_component else ())
@@ -359,8 +376,8 @@ def _template(spec: RunSpec, plan: ChunkPlan) -> tuple[xr.Dataset, dict[str, dic
         "flag_values": [0, 1], "flag_meanings": "incomplete complete",
         "comment": f"one element per block of {list(plan.chunks)} grid points along "
         f"{list(dims)}"})
-    encoding[BLOCK_COMPLETE] = {"chunks": (1, 1, 1), "fill_value": 0}
-    ds = xr.Dataset(data, coords=coords, attrs=_root_attrs(spec, plan))
+    encoding[BLOCK_COMPLETE] = {"chunks": (1,) * len(dims), "fill_value": 0}
+    ds = xr.Dataset(data, coords=coords, attrs={**_root_attrs(spec, plan), **attrs})
     return ds, encoding
 
 

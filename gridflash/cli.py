@@ -1,4 +1,4 @@
-"""The ``gridflash`` command line: ``gridflash run CONFIG`` and ``gridflash inspect STORE``.
+"""The ``gridflash`` command line: ``run``, ``inspect``, ``characterise`` and the table commands.
 
 Thin: parses arguments, calls the library, prints. A :class:`~gridflash.GridflashError` becomes
 one line on stderr and exit status 1; usage mistakes exit with status 2.
@@ -138,6 +138,50 @@ def inspect_command(store: Path, max_listed: int) -> None:
     from ._inspect import inspect_store
 
     click.echo(_format_report(inspect_store(store, max_listed=max_listed)))
+
+
+_EPILOG_CHARACTERISE = """\b
+Examples:
+  gridflash characterise configs/heavy_oil.toml
+  gridflash characterise configs/heavy_oil.toml --toml fluid.toml
+"""
+
+
+@cli.command("characterise", epilog=_EPILOG_CHARACTERISE)
+@click.argument("config", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--toml", "toml_out", type=click.Path(dir_okay=False, path_type=Path),
+              metavar="FILE", help="Also write the fluid as config TOML to FILE.")
+def characterise_command(config: Path, toml_out: Path | None) -> None:
+    """Characterise the plus-fraction of CONFIG's [fluid.heavy_end] and print the components.
+
+    Prints the component table (light components and pseudo-components with their constants)
+    and the single carbon-number fractions before lumping; with --toml, writes the fluid as
+    [fluid] and [streams.NAME] tables in config form, ready to paste into a config.
+    """
+    from ._config import load_config
+    from ._errors import ConfigError
+    from .thermo import fluid_table_text, fluid_table_toml
+
+    spec = load_config(config)
+    heavy = getattr(spec, "heavy_end", None)
+    if heavy is None:
+        raise ConfigError(f"{config}: fluid.heavy_end is missing; there is no plus-fraction to "
+                          "characterise (see docs/config.md)")
+    click.echo(fluid_table_text(heavy.fluid), nl=False)
+    if toml_out is not None:
+        names, kij = spec.fluid.names, spec.fluid.kij
+        pairs = {
+            (names[i], names[j]): kij[i][j]
+            for i in range(len(names))
+            for j in range(i + 1, len(names))
+            if kij[i][j] != 0.0
+        }
+        text = fluid_table_toml(heavy.fluid, eos=spec.fluid.eos, stream=heavy.stream, kij=pairs)
+        try:
+            toml_out.write_text(text)
+        except OSError as exc:
+            raise ConfigError(f"cannot write {str(toml_out)!r}: {exc.strerror}") from None
+        click.echo(f"wrote {toml_out}")
 
 
 def main(argv: list[str] | None = None) -> None:

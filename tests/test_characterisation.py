@@ -16,7 +16,6 @@ The fluids are invented (labelled as such), not field data.
 from __future__ import annotations
 
 import math
-import tomllib
 
 import chemicals
 import numpy as np
@@ -636,28 +635,32 @@ def test_analysis_validation():
 
 
 def test_fluid_table_toml_round_trip(invented_oil_with_scn):
+    # The written TOML is a valid gridflash config fluid: parse it with the config parser and
+    # get the same components, composition and interaction parameters back.
+    from gridflash._config import parse_config
+
     fluid = characterise(invented_oil_with_scn, n_pseudo=3)
-    doc = tomllib.loads(fluid_table_toml(fluid))["fluid"]
-    comps = doc["components"]
-    assert [c["name"] for c in comps] == list(fluid.names)
-    for entry, comp in zip(comps, fluid.components, strict=True):
-        assert (entry["tc_unit"], entry["pc_unit"], entry["mw_unit"], entry["vc_unit"]) == (
-            "K",
-            "bar",
-            "g/mol",
-            "m3/mol",
-        )
-        assert entry["tc"] == comp.tc
-        assert entry["pc"] * 1e5 == pytest.approx(comp.pc, rel=1e-15)
-        assert entry["omega"] == comp.omega
-        assert entry["mw"] == comp.mw
-        assert entry["vc"] == comp.critical_volume
-        assert entry["source"] == comp.source
-    assert list(doc["composition"]) == list(fluid.names)
-    assert list(doc["composition"].values()) == fluid.composition.tolist()
-    pairs = {tuple(k["components"]): k["value"] for k in doc["kij"]}
-    assert pairs == dict(fluid.kij)
-    assert doc["provenance"] == fluid.provenance
+    text = fluid_table_toml(fluid, eos="SRK", stream="oil") + (
+        '[pressure]\nunit = "bar"\nvalues = [100]\n'
+        '[temperature]\nunit = "K"\nvalues = [350]\n'
+        '[composition]\nkind = "list"\nstreams = ["oil"]\n'
+        '[run]\noutput = "x.zarr"\n'
+    )
+    spec = parse_config(text)
+    assert spec.fluid.eos == "SRK"
+    assert spec.fluid.names == fluid.names
+    for got, comp in zip(spec.fluid.components, fluid.components, strict=True):
+        assert got.tc == comp.tc
+        assert got.pc == pytest.approx(comp.pc, rel=1e-15)
+        assert got.omega == comp.omega
+        assert got.mw == comp.mw
+        assert got.critical_volume == pytest.approx(comp.critical_volume, rel=1e-15)
+    np.testing.assert_allclose(spec.streams[0][1], fluid.composition, rtol=1e-15, atol=1e-17)
+    mix = spec.fluid.mixture()
+    for (a, b), value in fluid.kij.items():
+        assert mix.kij[mix.index(a), mix.index(b)] == value
+    assert np.count_nonzero(mix.kij) == 2 * len(fluid.kij)
+    assert text.startswith("# Fluid characterised by gridflash")
 
 
 def test_fluid_table_text(invented_oil):

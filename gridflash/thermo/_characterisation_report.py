@@ -1,43 +1,25 @@
-"""Text output of a characterised fluid: a TOML fluid table and a plain-text component table.
+"""Text output of a characterised fluid: config-ready TOML and a plain-text component table.
 
 No file I/O here: both functions return strings; the caller decides where they go.
 
-TOML layout written by :func:`fluid_table_toml` (every key always present)::
-
-    [fluid.provenance]              # method names and parameters (strings and numbers)
-    plus_fraction = "C7+"
-    ...
-
-    [fluid.composition]             # mole fractions, summing to 1; keys are component names
-    "N2" = 0.005
-    "C7_C11" = 0.15623...
-
-    [[fluid.components]]            # one table per component, light first, then pseudo
-    name = "C7_C11"
-    tc = 600.79...                  # critical temperature
-    tc_unit = "K"
-    pc = 25.05...                   # critical pressure
-    pc_unit = "bar"
-    omega = 0.42...                 # acentric factor, dimensionless
-    mw = 123.69...                  # molar mass
-    mw_unit = "g/mol"
-    vc = 0.000525...                # critical volume
-    vc_unit = "m3/mol"
-    source = "..."
-
-    [[fluid.kij]]                   # one table per non-zero pair; others are zero
-    components = ["C1", "C7_C11"]
-    value = 0.037...
-
-Floats are written with Python's shortest round-trip representation, so reading the text back
-gives the same numbers (``pc`` is converted from Pa to bar by one division).
+:func:`fluid_table_toml` writes the fluid in the layout of a gridflash config (docs/config.md):
+a ``[fluid]`` table whose ``components`` lists built-in components by name and every other
+component as an inline table (``name``, ``tc`` + ``tc_unit = "K"``, ``pc`` + ``pc_unit = "bar"``,
+``omega``, ``mw`` in g/mol, ``vc`` + ``vc_unit = "m3/mol"``, ``source``), ``kij`` in the list
+form ``[["CO2", "C7_C11", 0.1], ...]``, and a ``[streams.NAME]`` table with the characterised
+mole fractions. The methods used are written as comments. Floats use Python's shortest
+round-trip representation, so reading the text back gives the same numbers (``pc`` is converted
+from Pa to bar by one division).
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 
+from .._errors import InputError
 from ._characterisation import CharacterisedFluid
+from ._components import Component, builtin_component
 
 __all__ = ["fluid_table_text", "fluid_table_toml"]
 
@@ -77,39 +59,42 @@ def _toml_value(value: object) -> str:
     return _toml_string(str(value))
 
 
-def fluid_table_toml(fluid: CharacterisedFluid) -> str:
-    """The characterised fluid as TOML text a user can paste into a configuration.
+def fluid_table_toml(
+    fluid: CharacterisedFluid,
+    *,
+    eos: str = "PR78",
+    stream: str = "oil",
+    kij: Mapping[tuple[str, str], float] | None = None,
+) -> str:
+    """The characterised fluid as config TOML a user can paste into a gridflash config.
 
     Parameters
     ----------
     fluid : CharacterisedFluid
         Result of :func:`~gridflash.thermo.characterise`.
+    eos : str
+        Written as ``fluid.eos``.
+    stream : str
+        Name of the ``[streams.NAME]`` table that receives the composition.
+    kij : mapping, optional
+        Interaction pairs to write (e.g. the characterisation's merged with pairs among light
+        components); default ``fluid.kij``.
 
     Returns
     -------
     str
-        TOML text with the tables ``[fluid.provenance]``, ``[fluid.composition]``,
-        ``[[fluid.components]]`` (``name``, ``tc`` + ``tc_unit = "K"``, ``pc`` +
-        ``pc_unit = "bar"``, ``omega``, ``mw`` + ``mw_unit = "g/mol"``, ``vc`` +
-        ``vc_unit = "m3/mol"``, ``source``) and ``[[fluid.kij]]`` (``components`` = two names,
-        ``value``); see the module docstring for the full layout.
+        ``[fluid]`` (eos, components, kij) and ``[streams.<stream>]`` (mole_fractions); see the
+        module docstring.
     """
-    lines = [
-        "# Fluid table written by gridflash (plus-fraction characterisation).",
-        "# Units are given beside each value; composition is in mole fractions summing to 1.",
-        "# Interaction parameters not listed under [[fluid.kij]] are zero.",
-        "",
-        "[fluid.provenance]",
-    ]
+    lines = ["# Fluid characterised by gridflash; methods:"]
     for key, value in fluid.provenance.items():
-        lines.append(f"{key} = {_toml_value(value)}")
-    lines += ["", "[fluid.composition]"]
-    for comp, z in zip(fluid.components, fluid.composition, strict=True):
-        lines.append(f"{_toml_string(comp.name)} = {_toml_value(float(z))}")
+        lines.append(f"#   {key}: {value}")
+    lines += ["", "[fluid]", f"eos = {_toml_string(eos)}", "components = ["]
     for comp in fluid.components:
-        lines += [
-            "",
-            "[[fluid.components]]",
+        if _is_builtin(comp):
+            lines.append(f"    {_toml_string(comp.name)},")
+            continue
+        fields = [
             f"name = {_toml_string(comp.name)}",
             f"tc = {_toml_value(float(comp.tc))}",
             'tc_unit = "K"',
@@ -117,19 +102,32 @@ def fluid_table_toml(fluid: CharacterisedFluid) -> str:
             'pc_unit = "bar"',
             f"omega = {_toml_value(float(comp.omega))}",
             f"mw = {_toml_value(float(comp.mw))}",
-            'mw_unit = "g/mol"',
             f"vc = {_toml_value(float(comp.critical_volume))}",
             'vc_unit = "m3/mol"',
             f"source = {_toml_string(comp.source)}",
         ]
-    for (name_i, name_j), value in fluid.kij.items():
-        lines += [
-            "",
-            "[[fluid.kij]]",
-            f"components = [{_toml_string(name_i)}, {_toml_string(name_j)}]",
-            f"value = {_toml_value(float(value))}",
-        ]
+        lines.append("    { " + ", ".join(fields) + " },")
+    lines.append("]")
+    lines.append("kij = [")
+    for (name_i, name_j), value in (fluid.kij if kij is None else kij).items():
+        lines.append(
+            f"    [{_toml_string(name_i)}, {_toml_string(name_j)}, {_toml_value(float(value))}],"
+        )
+    lines += ["]", "", f"[streams.{_toml_string(stream)}]", "mole_fractions = {"]
+    entries = [
+        f"{_toml_string(comp.name)} = {_toml_value(float(z))}"
+        for comp, z in zip(fluid.components, fluid.composition, strict=True)
+    ]
+    # TOML inline tables are one line long.
+    lines[-1] = "mole_fractions = { " + ", ".join(entries) + " }"
     return "\n".join(lines) + "\n"
+
+
+def _is_builtin(comp: Component) -> bool:
+    try:
+        return builtin_component(comp.name) == comp
+    except InputError:
+        return False
 
 
 def fluid_table_text(fluid: CharacterisedFluid) -> str:
