@@ -125,8 +125,8 @@ def _band_cells(mix, n_band, n_critical, seed):
 
     # Near-critical lines: two-phase cells with a single-phase cell just above in pressure,
     # ordered by how close their K-values are to 1.
-    with np.errstate(invalid="ignore"):
-        lnk = np.nanmax(np.abs(np.log(r.K)), axis=1).reshape(pp.shape)
+    # Single-phase cells have NaN K-values: give them +inf so they are never "near critical".
+    lnk = np.max(np.where(np.isnan(r.K), np.inf, np.abs(np.log(r.K))), axis=1).reshape(pp.shape)
     top = (pc[:-1] == 2) & (pc[1:] == 1)
     cand = np.argwhere(top)
     order = np.argsort(lnk[:-1][top])[:10]
