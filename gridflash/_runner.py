@@ -272,6 +272,9 @@ def run(
     stats = sum((s.stats for s in computed), BlockStats())
     for block in reused:
         stats = stats + stored_block_stats(path, plan, block)
+    from ._saturation_lines import write_saturation_lines
+
+    write_saturation_lines(path)  # bubble/dew pressure per line, cricondenbars (grid tables)
     attrs = read_root_attrs(path)
     session = time.perf_counter() - started
     final = {
