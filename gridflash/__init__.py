@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 from ._errors import ConfigError, GridflashError, InputError, StoreError
+from ._lookup import lookup
+from ._saturation_lines import add_saturation_lines, saturation_lines
 from ._table import open_table
 from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 
@@ -17,7 +19,10 @@ __all__ = [
     "InputError",
     "Mixture",
     "StoreError",
+    "add_saturation_lines",
     "flash",
+    "lookup",
     "open_table",
+    "saturation_lines",
     "__version__",
 ]
