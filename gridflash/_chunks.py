@@ -19,6 +19,7 @@ from ._spec import RunSpec
 
 __all__ = [
     "DEFAULT_CHUNK_CELLS",
+    "DEFAULT_SAMPLE_CHUNK",
     "MIN_SWEEP_DEPTH",
     "BlockId",
     "ChunkPlan",
@@ -33,8 +34,13 @@ DEFAULT_CHUNK_CELLS = 65_536
 #: long), so that all but one slab in eight or more is warm-started.
 MIN_SWEEP_DEPTH = 8
 
-#: A block's position in the grid of blocks, one index per grid dimension.
-BlockId = tuple[int, int, int]
+#: Default chunk length of a sampling run (samples per task): a power of two, so that blocks of
+#: a Sobol' design are balanced, and enough samples for near neighbours to warm-start from.
+DEFAULT_SAMPLE_CHUNK = 8192
+
+#: A block's position in the grid of blocks, one index per grid dimension (three for a grid,
+#: one for a sampling run).
+BlockId = tuple[int, ...]
 
 
 @dataclass(frozen=True)
@@ -43,19 +49,20 @@ class ChunkPlan:
 
     Attributes
     ----------
-    dims : tuple of 3 str
-        Grid dimensions in store order (pressure, temperature, composition dimension).
-    shape : tuple of 3 int
+    dims : tuple of str
+        Grid dimensions in store order (pressure, temperature, composition dimension), or
+        ``("sample",)`` for a sampling run.
+    shape : tuple of int
         Grid shape.
-    chunks : tuple of 3 int
+    chunks : tuple of int
         Chunk length along each dimension (the last block along a dimension may be shorter).
     sweep : str
         The dimension swept slab by slab inside a block.
     """
 
-    dims: tuple[str, str, str]
-    shape: tuple[int, int, int]
-    chunks: tuple[int, int, int]
+    dims: tuple[str, ...]
+    shape: tuple[int, ...]
+    chunks: tuple[int, ...]
     sweep: str
 
     @property
@@ -100,7 +107,7 @@ class ChunkPlan:
         StoreError
             If ``block`` is not a block of this plan.
         """
-        if len(block) != 3 or not all(
+        if len(block) != len(self.dims) or not all(
             0 <= int(b) < n for b, n in zip(block, self.blocks_shape, strict=True)
         ):
             raise StoreError(
@@ -192,6 +199,8 @@ def chunk_plan(spec: RunSpec) -> ChunkPlan:
         If ``run.sweep`` or a ``run.chunks`` entry names an unknown dimension, or a chunk length
         is not a positive integer.
     """
+    if spec.sampling is not None:
+        return _sample_plan(spec)
     dims = spec.dims
     shape = spec.shape
     if spec.run.sweep not in dims:
@@ -214,6 +223,22 @@ def chunk_plan(spec: RunSpec) -> ChunkPlan:
     defaults = default_chunks(shape, sweep_axis)
     chunks = tuple(given.get(d, defaults[i]) for i, d in enumerate(dims))
     return ChunkPlan(dims=dims, shape=shape, chunks=chunks, sweep=spec.run.sweep)  # type: ignore[arg-type]
+
+
+def _sample_plan(spec: RunSpec) -> ChunkPlan:
+    """The one-dimensional plan of a sampling run: blocks of consecutive samples."""
+    n = spec.shape[0]
+    given = dict(spec.run.chunks)
+    unknown = [d for d in given if d != "sample"]
+    if unknown:
+        raise ConfigError(
+            f"run.chunks names {unknown[0]!r}, which is not a dimension of a sampling run; give "
+            "run.chunks.sample"
+        )
+    length = given.get("sample", DEFAULT_SAMPLE_CHUNK)
+    if isinstance(length, bool) or not isinstance(length, int) or length < 1:
+        raise ConfigError(f"run.chunks.sample = {length!r} is not a positive integer")
+    return ChunkPlan(dims=("sample",), shape=(n,), chunks=(min(length, n),), sweep="sample")  # type: ignore[arg-type]
 
 
 def check_chunks_aligned(

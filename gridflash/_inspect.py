@@ -102,6 +102,17 @@ def inspect_store(path: str | os.PathLike[str], *, max_listed: int = 20) -> Stor
         axes.append(AxisReport(dim, values.size, float(values[0]), float(values[-1]),
                                str(arr.attrs.get("units", "")),
                                str(arr.attrs.get("long_name", dim))))
+    if dims == ("sample",):
+        # A sampling run: report the sampled inputs' ranges (lowest .. highest value drawn).
+        for name in ("pressure", "temperature", "mixing_ratio"):
+            if name in group:
+                arr = group[name]
+                values = np.asarray(arr[...])
+                coords[name] = values
+                axes.append(AxisReport(
+                    name, values.size, float(values.min()), float(values.max()),
+                    str(arr.attrs.get("units", "")),
+                    f"{arr.attrs.get('long_name', name)}; sampled, lowest .. highest"))
     plan = ChunkPlan(dims=dims, shape=tuple(phase_count.shape),  # type: ignore[arg-type]
                      chunks=tuple(phase_count.chunks), sweep=str(attrs.get("sweep", dims[0])))
     complete = np.asarray(group[BLOCK_COMPLETE][...]) == 1
@@ -134,6 +145,10 @@ def inspect_store(path: str | os.PathLike[str], *, max_listed: int = 20) -> Stor
                     dim: float(coords[dim][region[a].start + idx[a]])
                     for a, dim in enumerate(dims)
                 }
+                if dims == ("sample",):
+                    where.update({name: float(coords[name][region[0].start + idx[0]])
+                                  for name in ("pressure", "temperature", "mixing_ratio")
+                                  if name in coords})
                 listed.append(UnconvergedCell(where, _status_name(int(status[tuple(idx)])),
                                               float(residual[tuple(idx)])))
     return StoreReport(

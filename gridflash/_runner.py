@@ -26,6 +26,7 @@ import numpy as np
 from ._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from ._errors import GridflashError, InputError, StoreError
 from ._grid import block_inputs
+from ._sample_sweep import sample_block
 from ._spec import RunSpec
 from ._store import (
     BlockStats,
@@ -147,16 +148,20 @@ def compute_block(task: BlockTask) -> BlockSummary:
     spec = task.spec
     plan = chunk_plan(spec)
     start = time.perf_counter()
-    pressure, temperature, z = block_inputs(spec, plan.block_slices(task.block))
-    result = sweep_block(
-        spec.fluid.mixture(),
-        pressure,
-        temperature,
-        z,
-        plan.block_shape(task.block),
-        plan.sweep_axis,
-        warm_start=spec.run.warm_start,
-    )
+    if spec.sampling is not None:
+        # A block of consecutive samples, flashed in waves with nearest-neighbour warm starts.
+        result = sample_block(spec, plan.block_slices(task.block)[0])
+    else:
+        pressure, temperature, z = block_inputs(spec, plan.block_slices(task.block))
+        result = sweep_block(
+            spec.fluid.mixture(),
+            pressure,
+            temperature,
+            z,
+            plan.block_shape(task.block),
+            plan.sweep_axis,
+            warm_start=spec.run.warm_start,
+        )
     path = Path(task.store)
     write_block(path, plan, task.block, result)
     mark_block_complete(path, task.block)

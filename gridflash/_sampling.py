@@ -91,7 +91,9 @@ class SampleInputs:
     position: NDArray[np.float64]
 
 
-def unit_points(sequence: str, dimension: int, seed: int, start: int, stop: int) -> NDArray[np.float64]:
+def unit_points(
+    sequence: str, dimension: int, seed: int, start: int, stop: int
+) -> NDArray[np.float64]:
     """Points ``start .. stop - 1`` of a scrambled, seeded low-discrepancy sequence.
 
     Parameters
