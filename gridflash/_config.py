@@ -1130,7 +1130,7 @@ class _Parser:
         workers = None
         if "workers" in table:
             workers = _int(table["workers"], "run.workers", 1, _MAX_WORKERS, "a number of workers")
-        scheduler = _choice(table.get("scheduler", "processes"), "run.scheduler", _SCHEDULERS)
+        scheduler = _choice(table.get("scheduler", "threads"), "run.scheduler", _SCHEDULERS)
         address = None
         if "scheduler_address" in table:
             address = _str(

@@ -80,7 +80,7 @@ class RunOptions:
     chunks: tuple[tuple[str, int], ...]  # (dimension name, chunk length) for every grid dimension
     sweep: str  # dimension swept slab by slab inside a chunk, each slab warm-started
     workers: int | None = None  # None: all cores
-    scheduler: SchedulerKind = "processes"
+    scheduler: SchedulerKind = "threads"
     scheduler_address: str | None = None
     warm_start: bool = True
 

@@ -746,7 +746,7 @@ def test_defaults_and_single_value_axes() -> None:
     assert spec.fluid.kij == ((0.0,) * 3,) * 3
     assert spec.pressure.values == (1e7,) and spec.temperature.values == (300.0,)
     assert spec.run.output == Path("/abs/out.zarr")
-    assert spec.run.workers is None and spec.run.scheduler == "processes"
+    assert spec.run.workers is None and spec.run.scheduler == "threads"
     assert spec.run.scheduler_address is None and spec.run.warm_start is True
     assert spec.run.sweep == "pressure"
     assert spec.run.chunks == ()  # no run.chunks: the chunk plan chooses every length
