@@ -184,6 +184,158 @@ def characterise_command(config: Path, toml_out: Path | None) -> None:
         click.echo(f"wrote {toml_out}")
 
 
+_EPILOG_PLOT = """\b
+Examples:
+  gridflash plot configs/volatile_oil_co2.zarr --at mixing_ratio=0.3
+  gridflash plot out.zarr --x mixing_ratio --y pressure --at temperature=80degC --out figs
+  gridflash plot out.zarr --x mixing_ratio --y temperature --at pressure=150bar --kind phase
+  gridflash plot out.zarr --pressure-unit MPa --temperature-unit K
+
+\b
+Pressures and temperatures in --at need a unit (bar, MPa, psia, degC, K, degF, ...); the
+nearest grid value is used. Axes left out of --at are fixed at their first value.
+Needs matplotlib: pip install 'gridflash[plot]'.
+"""
+
+
+@cli.command("plot", epilog=_EPILOG_PLOT)
+@click.argument("store", type=click.Path(path_type=Path))
+@click.option("--x", "x_axis", default="temperature", show_default=True, metavar="AXIS",
+              help="Horizontal axis: pressure, temperature or the composition axis.")
+@click.option("--y", "y_axis", default="pressure", show_default=True, metavar="AXIS",
+              help="Vertical axis.")
+@click.option("--at", "at_items", multiple=True, metavar="DIM=VALUE",
+              help="Value of an axis not plotted, e.g. temperature=80degC (repeatable).")
+@click.option("--out", "out_dir", type=click.Path(file_okay=False, path_type=Path),
+              metavar="DIR", help="Folder for the PNG files (default: STORE_plots beside it).")
+@click.option("--kind", "kinds", multiple=True, type=click.Choice(["phase", "density",
+              "viscosity"]), help="Figures to draw (repeatable; default all three).")
+@click.option("--pressure-unit", default="bar", show_default=True, metavar="UNIT",
+              help="Pressure unit on the axes: bar, MPa, kPa, psia, atm, Pa.")
+@click.option("--temperature-unit", default="degC", show_default=True, metavar="UNIT",
+              help="Temperature unit on the axes: degC, K, degF.")
+@click.option("--dpi", type=click.IntRange(min=20, max=1200), default=120, show_default=True,
+              help="Resolution of the PNG files.")
+def plot_command(store: Path, x_axis: str, y_axis: str, at_items: tuple[str, ...],
+                 out_dir: Path | None, kinds: tuple[str, ...], pressure_unit: str,
+                 temperature_unit: str, dpi: int) -> None:
+    """Write PNG pictures of the table STORE: a phase map and density/viscosity maps.
+
+    The phase map colours two-phase, vapour-like and liquid-like cells, draws the saturation
+    line where pressure is an axis, and contours the vapour fraction.
+    """
+    import numpy as np
+
+    from ._plot import _matplotlib, parse_at, plot_table
+    from ._table import open_table
+
+    _matplotlib()  # fail in one line before reading anything if matplotlib is missing
+    table = open_table(store)
+    at = parse_at(table, at_items)
+    for dim, value in at.items():
+        nodes = np.asarray(table[dim].values, dtype=float)
+        nearest = float(nodes[np.argmin(np.abs(nodes - value))])
+        if not np.isclose(nearest, value, rtol=1e-9, atol=0.0):
+            units = str(table[dim].attrs.get("units", "")).replace("1", "")
+            click.echo(f"note: {dim} {value:g} is not a grid value; using the nearest, "
+                       f"{nearest:g} {units}".rstrip())
+    folder = out_dir if out_dir is not None else store.parent / f"{store.stem}_plots"
+    written = plot_table(table, x=x_axis, y=y_axis, at=at, out=folder,
+                         kinds=kinds or ("phase", "density", "viscosity"),
+                         pressure_unit=pressure_unit, temperature_unit=temperature_unit, dpi=dpi)
+    for path in written:
+        click.echo(f"wrote {path}")
+
+
+@cli.command("saturation")
+@click.argument("store", type=click.Path(path_type=Path))
+def saturation_command(store: Path) -> None:
+    """Compute the saturation lines and cricondenbars of STORE and store them in it.
+
+    A run does this at its end; this command redoes it for an existing store.
+    """
+    import numpy as np
+
+    from ._saturation_lines import add_saturation_lines
+
+    lines = add_saturation_lines(store)
+    kind = lines.saturation_kind.values
+    lower = lines.lower_saturation_kind.values
+    cb = np.isfinite(lines.cricondenbar_pressure.values)
+    click.echo(
+        f"wrote saturation lines to {store}: {kind.size} (temperature, composition) lines; "
+        f"upper boundary found on {int((kind > 0).sum())} ({int((kind == 1).sum())} bubble "
+        f"points, {int((kind == 2).sum())} dew points, {int((kind == 3).sum())} vapour "
+        f"pressures), lower dew point on {int((lower > 0).sum())}; cricondenbar within the "
+        f"table for {int(cb.sum())} of {cb.size} compositions"
+    )
+
+
+_EPILOG_EXPORT = """\b
+Examples:
+  gridflash export configs/training_samples.zarr --out samples.parquet
+  gridflash export table.zarr --out table.nc --split 0.7,0.15,0.15 --converged-only
+
+\b
+Writes FILE and FILE.columns.json (every column's name, role, units and meaning).
+See docs/training.md for the columns and how the split is decided.
+"""
+
+
+def _split_option(ctx: click.Context, param: click.Parameter, value: str):
+    from ._errors import InputError
+    from ._export import parse_split
+
+    try:
+        return parse_split(value)
+    except InputError as exc:
+        raise click.BadParameter(str(exc)) from None
+
+
+@cli.command("export", epilog=_EPILOG_EXPORT)
+@click.argument("store", type=click.Path(path_type=Path))
+@click.option("--out", "-o", "out", required=True, metavar="FILE",
+              type=click.Path(dir_okay=False, path_type=Path),
+              help="Table to write (.parquet, or .nc for NetCDF).")
+@click.option("--format", "fmt", type=click.Choice(["parquet", "netcdf"]), default=None,
+              help="File format (default: from FILE's suffix, .nc -> netcdf; else parquet).")
+@click.option("--split", "split", default="0.8,0.1,0.1", show_default=True,
+              metavar="TRAIN,VALIDATION,TEST", callback=_split_option,
+              help="Shares of the train, validation and test splits (summing to 1).")
+@click.option("--converged-only", is_flag=True,
+              help="Leave out unconverged cells (default: keep them, flagged).")
+@click.option("--overwrite", is_flag=True, help="Replace an existing FILE.")
+@click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")
+def export_command(
+    store: Path,
+    out: Path,
+    fmt: str | None,
+    split: tuple[float, float, float],
+    converged_only: bool,
+    overwrite: bool,
+    quiet: bool,
+) -> None:
+    """Write the cells of STORE as a flat table of features and labels for training.
+
+    One row per cell (grid or sample store): features (pressure, temperature, mixing ratio or
+    stream fractions, feed composition), labels (phase count and label, vapour fraction, phase
+    compositions, K-values, densities, viscosities, converged, status) and a train /
+    validation / test split decided by a hash of the cell's inputs.
+    """
+    from ._export import export_table
+
+    summary = export_table(store, out, format=fmt, split=split,  # type: ignore[arg-type]
+                           converged_only=converged_only, overwrite=overwrite)
+    if not quiet:
+        counts = ", ".join(f"{n:,} {name}" for name, n in summary.split_counts.items())
+        dropped = (f", {summary.dropped_unconverged:,} unconverged left out"
+                   if converged_only else "")
+        click.echo(f"wrote {summary.path} ({summary.format}): {summary.rows:,} rows of "
+                   f"{summary.cells:,} cells{dropped}; {len(summary.columns)} columns")
+        click.echo(f"  split: {counts}")
+        click.echo(f"  columns described in {summary.columns_path}")
+
+
 def main(argv: list[str] | None = None) -> None:
     """Entry point of the ``gridflash`` command."""
     cli.main(args=argv, prog_name="gridflash")
