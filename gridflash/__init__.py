@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ._errors import ConfigError, GridflashError, InputError, StoreError
+from ._export import export_table
 from ._lookup import lookup
 from ._saturation_lines import add_saturation_lines, saturation_lines
 from ._table import open_table
@@ -20,6 +21,7 @@ __all__ = [
     "Mixture",
     "StoreError",
     "add_saturation_lines",
+    "export_table",
     "flash",
     "lookup",
     "open_table",

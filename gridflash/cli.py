@@ -336,6 +336,71 @@ def export_command(
         click.echo(f"  columns described in {summary.columns_path}")
 
 
+_EPILOG_EXPORT = """\b
+Examples:
+  gridflash export configs/training_samples.zarr --out samples.parquet
+  gridflash export table.zarr --out table.nc --split 0.7,0.15,0.15 --converged-only
+
+\b
+Writes FILE and FILE.columns.json (every column's name, role, units and meaning).
+See docs/training.md for the columns and how the split is decided.
+"""
+
+
+def _split_option(ctx: click.Context, param: click.Parameter, value: str):
+    from ._errors import InputError
+    from ._export import parse_split
+
+    try:
+        return parse_split(value)
+    except InputError as exc:
+        raise click.BadParameter(str(exc)) from None
+
+
+@cli.command("export", epilog=_EPILOG_EXPORT)
+@click.argument("store", type=click.Path(path_type=Path))
+@click.option("--out", "-o", "out", required=True, metavar="FILE",
+              type=click.Path(dir_okay=False, path_type=Path),
+              help="Table to write (.parquet, or .nc for NetCDF).")
+@click.option("--format", "fmt", type=click.Choice(["parquet", "netcdf"]), default=None,
+              help="File format (default: from FILE's suffix, .nc -> netcdf; else parquet).")
+@click.option("--split", "split", default="0.8,0.1,0.1", show_default=True,
+              metavar="TRAIN,VALIDATION,TEST", callback=_split_option,
+              help="Shares of the train, validation and test splits (summing to 1).")
+@click.option("--converged-only", is_flag=True,
+              help="Leave out unconverged cells (default: keep them, flagged).")
+@click.option("--overwrite", is_flag=True, help="Replace an existing FILE.")
+@click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")
+def export_command(
+    store: Path,
+    out: Path,
+    fmt: str | None,
+    split: tuple[float, float, float],
+    converged_only: bool,
+    overwrite: bool,
+    quiet: bool,
+) -> None:
+    """Write the cells of STORE as a flat table of features and labels for training.
+
+    One row per cell (grid or sample store): features (pressure, temperature, mixing ratio or
+    stream fractions, feed composition), labels (phase count and label, vapour fraction, phase
+    compositions, K-values, densities, viscosities, converged, status) and a train /
+    validation / test split decided by a hash of the cell's inputs.
+    """
+    from ._export import export_table
+
+    summary = export_table(store, out, format=fmt, split=split,  # type: ignore[arg-type]
+                           converged_only=converged_only, overwrite=overwrite)
+    if not quiet:
+        counts = ", ".join(f"{n:,} {name}" for name, n in summary.split_counts.items())
+        dropped = (f", {summary.dropped_unconverged:,} unconverged left out"
+                   if converged_only else "")
+        click.echo(f"wrote {summary.path} ({summary.format}): {summary.rows:,} rows of "
+                   f"{summary.cells:,} cells{dropped}; {len(summary.columns)} columns")
+        click.echo(f"  split: {counts}")
+        click.echo(f"  columns described in {summary.columns_path}")
+
+
 def main(argv: list[str] | None = None) -> None:
     """Entry point of the ``gridflash`` command."""
     cli.main(args=argv, prog_name="gridflash")
