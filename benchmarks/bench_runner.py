@@ -1,7 +1,7 @@
 """Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
 
 Run: ``python benchmarks/bench_runner.py [--quick]``. For each case it starts ``gridflash run``
-as a subprocess with local worker processes (or threads), samples the resident memory (RSS) of
+as a subprocess with local worker threads (the default; or processes, or one worker), samples the resident memory (RSS) of
 the whole process tree (driver, workers, everything they start) every 50 ms, and prints wall
 time, cells/s and peak RSS. Baselines measured in this same process:
 
@@ -34,12 +34,7 @@ import gridflash
 
 ROOT = Path(__file__).resolve().parents[1]
 
-# Invented 8-component volatile oil and CO2-rich injection gas (not field data); the same fluid
-# as the kernel benchmark. CO2-hydrocarbon kij 0.12: common-practice magnitude, from memory.
-NAMES_8 = ("CO2", "C1", "C2", "C3", "nC4", "nC6", "nC8", "nC10")
-OIL_8 = np.array([0.02, 0.40, 0.08, 0.07, 0.06, 0.08, 0.12, 0.17])
-GAS_8 = np.array([0.70, 0.25, 0.03, 0.02, 0.0, 0.0, 0.0, 0.0])
-KIJ_8 = {("CO2", n): 0.12 for n in NAMES_8[1:]}
+from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8  # invented benchmark fluid (not field data)
 
 CONFIG = """\
 # Invented benchmark fluid (not field data).
@@ -80,7 +75,10 @@ def write_config(folder: Path, shape: tuple[int, int, int], chunks: str) -> Path
         kij=", ".join(f'"{a}-{b}" = {v}' for (a, b), v in KIJ_8.items()),
         oil="[" + ", ".join(map(str, OIL_8)) + "]",
         gas="[" + ", ".join(map(str, GAS_8)) + "]",
-        n_p=shape[0], n_t=shape[1], n_r=shape[2], chunks=chunks,
+        n_p=shape[0],
+        n_t=shape[1],
+        n_r=shape[2],
+        chunks=chunks,
     )
     path = folder / "bench.toml"
     path.write_text(text)
@@ -123,16 +121,20 @@ def run_case(folder: Path, shape, chunks: str, extra=()) -> dict:
         "blocks": attrs["blocks_total"],
         "mean_iterations": attrs["mean_iterations"],
         "unconverged": attrs["cells_unconverged"],
-        "store_mb": sum(f.stat().st_size for f in (folder / "out.zarr").rglob("*")
-                        if f.is_file()) / 1e6,
+        "store_mb": sum(f.stat().st_size for f in (folder / "out.zarr").rglob("*") if f.is_file())
+        / 1e6,
     }
 
 
 def kernel_rate() -> float:
     """Cells/s of one direct flash call on 20 000 cells of the benchmark grid (one core)."""
     mix = gridflash.Mixture(NAMES_8, kij=KIJ_8)
-    pp, tt, rr = np.meshgrid(np.linspace(1e6, 5e7, 100), np.linspace(290.0, 450.0, 10),
-                             np.linspace(0.0, 1.0, 20), indexing="ij")
+    pp, tt, rr = np.meshgrid(
+        np.linspace(1e6, 5e7, 100),
+        np.linspace(290.0, 450.0, 10),
+        np.linspace(0.0, 1.0, 20),
+        indexing="ij",
+    )
     z = (1.0 - rr.ravel()[:, None]) * OIL_8 + rr.ravel()[:, None] * GAS_8
     p, t = pp.ravel(), tt.ravel()
     gridflash.flash(mix, p[:100], t[:100], z[:100])  # compile / warm up
@@ -146,8 +148,20 @@ def iterations_warm_vs_cold(folder: Path) -> tuple[float, float]:
     out = {}
     for label, extra in (("warm", []), ("cold", ["--no-warm-start"])):
         store = folder / f"example_{label}.zarr"
-        subprocess.run([sys.executable, "-m", "gridflash.cli", "run", str(config), "-q",
-                        "--output", str(store), *extra], check=True)
+        subprocess.run(
+            [
+                sys.executable,
+                "-m",
+                "gridflash.cli",
+                "run",
+                str(config),
+                "-q",
+                "--output",
+                str(store),
+                *extra,
+            ],
+            check=True,
+        )
         out[label] = gridflash._store.read_root_attrs(store)["mean_iterations"]
     return out["warm"], out["cold"]
 
@@ -159,17 +173,26 @@ def main() -> None:
     cores = os.cpu_count() or 1
     big = (50, 50, 50) if args.quick else (100, 100, 100)
     small = (big[0], big[1] // 2, big[2] // 4)  # 8x fewer cells, same chunks
-    print(f"cores: {cores}  gridflash {gridflash.__version__}  grid {big} = "
-          f"{int(np.prod(big)):,} cells, 8 components, one local worker per core")
+    print(
+        f"cores: {cores}  gridflash {gridflash.__version__}  grid {big} = "
+        f"{int(np.prod(big)):,} cells, 8 components, one local worker per core"
+    )
     base = kernel_rate()
     print(f"baseline: direct flash on 20,000 cells, one core: {base:,.0f} cells/s")
     cases = [
         ("config default chunks", big, ""),
-        ("config default chunks, --threads", big, "", ["--threads"]),
-        ("chunks 13 x 50 x 100", big, "chunks = { pressure = 13, temperature = 50, "
-         "composition = 100 }"),
-        ("chunks 13 x 50 x 100, cold", big, "chunks = { pressure = 13, temperature = 50, "
-         "composition = 100 }\nwarm_start = false"),
+        ("config default chunks, --processes", big, "", ["--processes"]),
+        ("config default chunks, 1 worker", big, "", ["--workers", "1"]),
+        (
+            "chunks 13 x 50 x 100",
+            big,
+            "chunks = { pressure = 13, temperature = 50, composition = 100 }",
+        ),
+        (
+            "chunks 13 x 50 x 100, cold",
+            big,
+            "chunks = { pressure = 13, temperature = 50, composition = 100 }\nwarm_start = false",
+        ),
     ]
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
@@ -177,25 +200,43 @@ def main() -> None:
         for label, shape, chunks, *extra in cases:
             r = run_case(folder, shape, chunks, *extra)
             results[label] = r
-            print(f"\n{label}: chunks {r['chunks']} ({r['blocks']} blocks); load average "
-                  f"{os.getloadavg()[0]:.2f} after the run")
-            print(f"  wall time {r['wall']:.1f} s (process start to exit), "
-                  f"{r['cells'] / r['wall']:,.0f} cells/s overall, {r['run_rate']:,.0f} cells/s "
-                  f"while computing = {r['run_rate'] / (cores * base):.2f} x ({cores} x kernel)")
-            print(f"  peak RSS of the process tree {r['peak'] / 2**20:,.0f} MiB; store "
-                  f"{r['store_mb']:.0f} MB on disk; mean iterations {r['mean_iterations']:.2f}; "
-                  f"unconverged {r['unconverged']}")
+            print(
+                f"\n{label}: chunks {r['chunks']} ({r['blocks']} blocks); load average "
+                f"{os.getloadavg()[0]:.2f} after the run"
+            )
+            print(
+                f"  wall time {r['wall']:.1f} s (process start to exit), "
+                f"{r['cells'] / r['wall']:,.0f} cells/s overall, {r['run_rate']:,.0f} cells/s "
+                f"while computing = {r['run_rate'] / (cores * base):.2f} x ({cores} x kernel)"
+            )
+            print(
+                f"  peak RSS of the process tree {r['peak'] / 2**20:,.0f} MiB; store "
+                f"{r['store_mb']:.0f} MB on disk; mean iterations {r['mean_iterations']:.2f}; "
+                f"unconverged {r['unconverged']}"
+            )
+        one, two = results["config default chunks, 1 worker"], results["config default chunks"]
+        print(
+            f"\nscaling: {cores} workers / 1 worker, wall time ratio "
+            f"{one['wall'] / two['wall']:.2f}, compute-rate ratio "
+            f"{two['run_rate'] / one['run_rate']:.2f}"
+        )
         ref = results["config default chunks"]
-        same = ", ".join(f"{d} = {c}" for d, c in zip(
-            ("pressure", "temperature", "composition"), ref["chunks"], strict=True))
+        same = ", ".join(
+            f"{d} = {c}"
+            for d, c in zip(("pressure", "temperature", "composition"), ref["chunks"], strict=True)
+        )
         small_run = run_case(folder, small, f"chunks = {{ {same} }}")
-        print(f"\nmemory baseline: same default chunks on {int(np.prod(small)):,} cells: peak "
-              f"{small_run['peak'] / 2**20:,.0f} MiB; ratio big/small grid = "
-              f"{ref['peak'] / small_run['peak']:.2f} for {np.prod(big) / np.prod(small):.0f}x "
-              "the cells")
+        print(
+            f"\nmemory baseline: same default chunks on {int(np.prod(small)):,} cells: peak "
+            f"{small_run['peak'] / 2**20:,.0f} MiB; ratio big/small grid = "
+            f"{ref['peak'] / small_run['peak']:.2f} for {np.prod(big) / np.prod(small):.0f}x "
+            "the cells"
+        )
         warm, cold = iterations_warm_vs_cold(folder)
-        print(f"\nconfigs/volatile_oil_co2.toml mean iterations per cell: warm {warm:.2f}, cold "
-              f"{cold:.2f}, ratio cold/warm {cold / warm:.2f}")
+        print(
+            f"\nconfigs/volatile_oil_co2.toml mean iterations per cell: warm {warm:.2f}, cold "
+            f"{cold:.2f}, ratio cold/warm {cold / warm:.2f}"
+        )
 
 
 if __name__ == "__main__":

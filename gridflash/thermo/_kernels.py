@@ -1420,3 +1420,184 @@ def split_batch(
                 z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], warm, x[c], y[c], ln_k[c]
             )
         status[c], beta[c], z_l[c], z_v[c], iters[c], residual[c], balance[c], gibbs[c] = out
+
+
+# --------------------------------------------------------------------------------------------
+# Saturation point (bubble / dew) by Newton's method on the incipient-phase equations
+# --------------------------------------------------------------------------------------------
+
+SAT_TOL = 1e-12
+SAT_MAXITER = 50
+SAT_DLNP = 1e-6  # relative pressure step of the finite-difference d/d ln P
+
+
+@njit(**_JIT)
+def _sat_residual(
+    ac,
+    m,
+    b,
+    tc,
+    omk,
+    d1,
+    d2,
+    z,
+    present,
+    t,
+    lnp,
+    u,
+    w,
+    wn,
+    lnphi_w,
+    lnphi_z,
+    psi_w,
+    psi_z,
+    sqrt_a,
+    b_i,
+    f,
+):
+    """Residuals at (u, ln P); returns (Z_w, A_w, B_w, sum w)."""
+    nc = z.shape[0]
+    reduced_cell(ac, m, b, tc, math.exp(lnp), t, sqrt_a, b_i)
+    sw = 0.0
+    for i in range(nc):
+        w[i] = z[i] * math.exp(u[i]) if present[i] else 0.0
+        sw += w[i]
+    for i in range(nc):
+        wn[i] = w[i] / sw
+    zw, aw, bw = phase_cell(wn, sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, lnphi_w, psi_w)
+    phase_cell(z, sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, lnphi_z, psi_z)
+    for i in range(nc):
+        f[i] = u[i] + lnphi_w[i] - lnphi_z[i] if present[i] else 0.0
+    f[nc] = sw - 1.0
+    return zw, aw, bw, sw
+
+
+@njit(**_JIT)
+def saturation_newton_cell(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, u_out):
+    """Saturation pressure of feed ``z`` at ``t`` from a start (ln P, u = ln(w / z)).
+
+    Solves ``u_i + ln phi_i(w) - ln phi_i(z) = 0`` and ``sum w_i = 1`` for the incipient phase
+    ``w = z exp(u)`` and ``ln P`` (Michelsen & Mollerup 2007, ch. 12), with the analytic
+    composition Jacobian and a finite-difference pressure column. Returns (ln P, converged);
+    converged is False on a collapse to the trivial solution (``max |u| < 1e-5``).
+    """
+    nc = z.shape[0]
+    n = nc + 1
+    present = np.empty(nc, dtype=np.bool_)
+    u = np.empty(nc)
+    for i in range(nc):
+        present[i] = z[i] > 0.0
+        u[i] = u0[i] if present[i] else 0.0
+    w = np.empty(nc)
+    wn = np.empty(nc)
+    lnphi_w = np.empty(nc)
+    lnphi_z = np.empty(nc)
+    psi_w = np.empty(nc)
+    psi_z = np.empty(nc)
+    sqrt_a = np.empty(nc)
+    b_i = np.empty(nc)
+    f = np.empty(n)
+    f2 = np.empty(n)
+    jac = np.empty((n, n))
+    dphi = np.empty((nc, nc))
+    rhs = np.empty(n)
+    step = np.empty(n)
+    lnp = lnp0
+    converged = False
+    for _ in range(SAT_MAXITER):
+        zw, aw, bw, sw = _sat_residual(
+            ac,
+            m,
+            b,
+            tc,
+            omk,
+            d1,
+            d2,
+            z,
+            present,
+            t,
+            lnp,
+            u,
+            w,
+            wn,
+            lnphi_w,
+            lnphi_z,
+            psi_w,
+            psi_z,
+            sqrt_a,
+            b_i,
+            f,
+        )
+        norm = 0.0
+        for i in range(n):
+            norm = max(norm, abs(f[i]))
+        if not math.isfinite(norm):
+            break
+        umax = 0.0
+        for i in range(nc):
+            if present[i]:
+                umax = max(umax, abs(u[i]))
+        if umax < TRIVIAL_LNK:
+            break
+        if norm < SAT_TOL:
+            converged = True
+            break
+        dlnphi_cell(zw, aw, bw, psi_w, sqrt_a, b_i, omk, d1, d2, dphi)
+        for i in range(nc):
+            for j in range(nc):
+                if present[i] and present[j]:
+                    jac[i, j] = dphi[i, j] * w[j] / sw
+                else:
+                    jac[i, j] = 0.0
+            jac[i, i] += 1.0
+            jac[nc, i] = w[i]
+        jac[nc, nc] = 0.0
+        # d/d ln P by a forward difference (u fixed).
+        _sat_residual(
+            ac,
+            m,
+            b,
+            tc,
+            omk,
+            d1,
+            d2,
+            z,
+            present,
+            t,
+            lnp + SAT_DLNP,
+            u,
+            w,
+            wn,
+            lnphi_w,
+            lnphi_z,
+            psi_w,
+            psi_z,
+            sqrt_a,
+            b_i,
+            f2,
+        )
+        for i in range(nc):
+            jac[i, nc] = (f2[i] - f[i]) / SAT_DLNP
+        for i in range(n):
+            rhs[i] = -f[i]
+        if not solve_cell(jac, rhs, step):
+            break
+        scale = 1.0
+        for i in range(nc):
+            scale = max(scale, abs(step[i]))
+        scale = max(scale, abs(step[nc]) / 0.2)
+        for i in range(nc):
+            if present[i]:
+                u[i] += step[i] / scale
+        lnp += step[nc] / scale
+    for i in range(nc):
+        u_out[i] = u[i]
+    return lnp, converged
+
+
+@njit(**_JIT)
+def saturation_newton_batch(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, lnp, converged, u_out):
+    for c in range(z.shape[0]):
+        lnp[c], converged[c] = saturation_newton_cell(
+            ac, m, b, tc, omk, d1, d2, z[c], t[c], lnp0[c], u0[c], u_out[c]
+        )

@@ -84,10 +84,15 @@ def saturation_pressure(
 ):
     """Bubble- or dew-point pressure of each feed between a two-phase and a one-phase pressure.
 
-    The boundary is located by bisection in ``ln P`` on the phase count of the full flash
-    (stability test included), so it is the pressure at which :func:`gridflash.flash` itself
-    changes its answer; the kind of point follows from the vapour fraction just inside the
-    two-phase region (near 0: bubble point, near 1: dew point).
+    The bracket is first narrowed by bisection in ``ln P`` on the phase count of the full flash
+    (stability test included) to a relative width of 1e-3; the kind of point follows from the
+    vapour fraction at the two-phase end (near 0: bubble point, near 1: dew point). Newton's
+    method on the incipient-phase equations ``ln(w_i / z_i) + ln phi_i(w) - ln phi_i(z) = 0``,
+    ``sum w_i = 1`` (Michelsen & Mollerup 2007, ch. 12) then gives the EOS saturation pressure,
+    started from that end's K-values. The answer is kept only if the flash agrees with it: two
+    phases 1e-7 (relative) inside it and one phase 1e-7 outside. Where Newton fails or the flash
+    disagrees, bisection continues down to ``rtol``, so the result is always the pressure at
+    which :func:`gridflash.flash` itself changes its answer.
 
     Parameters
     ----------
@@ -98,7 +103,7 @@ def saturation_pressure(
     p_two_phase, p_one_phase : ndarray, shape (n,)
         Pressures (Pa) at which the flash finds two phases and one phase respectively.
     rtol : float
-        Relative width of the final bracket.
+        Relative width of the final bracket where bisection has to finish the job.
 
     Returns
     -------
@@ -108,12 +113,13 @@ def saturation_pressure(
         1 bubble point, 2 dew point, 3 vapour pressure of a single-component feed (where the
         brackets are ignored: a pure component's two-phase region is a line), 0 unknown.
     incipient : ndarray, shape (n, nc)
-        Composition of the incipient phase at the inside end of the final bracket.
+        Composition of the incipient phase.
     """
+    from . import _kernels as _k
     from ._flash import flash  # the flash is the oracle; imported here to avoid a cycle
 
-    t = np.asarray(temperature, dtype=float)
-    zz = np.asarray(z, dtype=float)
+    t = np.ascontiguousarray(temperature, dtype=float)
+    zz = np.ascontiguousarray(z, dtype=float)
     lo = np.log(np.asarray(p_two_phase, dtype=float))  # inside (two-phase) end
     hi = np.log(np.asarray(p_one_phase, dtype=float))  # outside (one-phase) end
     n = t.shape[0]
@@ -122,17 +128,20 @@ def saturation_pressure(
     )
     valid = (check.phase_count[:n] == 2) & (check.phase_count[n:] == 1)
     valid &= check.converged[:n] & check.converged[n:] & (np.sum(zz > 0.0, axis=1) > 1)
-    for _ in range(maxiter):
-        width = np.abs(hi - lo)
-        todo = valid & (width > rtol)
-        if not todo.any():
-            break
-        mid = 0.5 * (lo[todo] + hi[todo])
-        r = flash(mixture, np.exp(mid), t[todo], zz[todo])
-        two = r.phase_count == 2
-        idx = np.flatnonzero(todo)
-        lo[idx[two]] = mid[two]
-        hi[idx[~two]] = mid[~two]
+
+    def bisect(until):
+        for _ in range(maxiter):
+            todo = valid & (np.abs(hi - lo) > until)
+            if not todo.any():
+                break
+            mid = 0.5 * (lo[todo] + hi[todo])
+            r = flash(mixture, np.exp(mid), t[todo], zz[todo])
+            two = r.phase_count == 2
+            idx = np.flatnonzero(todo)
+            lo[idx[two]] = mid[two]
+            hi[idx[~two]] = mid[~two]
+
+    bisect(max(1e-3, rtol))
     inside = flash(mixture, np.exp(lo), t, zz)
     beta = inside.vapour_fraction
     kind = np.where(valid & (inside.phase_count == 2), np.where(beta < 0.5, 1, 2), 0).astype(
@@ -141,12 +150,60 @@ def saturation_pressure(
     incipient = np.where(
         (kind == 1)[:, None], inside.y, np.where((kind == 2)[:, None], inside.x, np.nan)
     )
-    pressure = np.where(valid, np.exp(0.5 * (lo + hi)), np.nan)
+    pressure = np.full(n, np.nan)
+    cand = np.flatnonzero(kind > 0)
+    if cand.size:
+        model = mixture.model
+        with np.errstate(divide="ignore", invalid="ignore"):
+            u0 = np.where(zz[cand] > 0.0, np.log(incipient[cand] / zz[cand]), 0.0)
+        u0 = np.where(np.isfinite(u0), u0, 0.0)
+        lnp = np.empty(cand.size)
+        ok = np.empty(cand.size, dtype=np.bool_)
+        u = np.empty((cand.size, zz.shape[1]))
+        _k.saturation_newton_batch(
+            model.ac,
+            model.m,
+            model.b,
+            model.tc,
+            model.one_minus_k,
+            model.delta1,
+            model.delta2,
+            zz[cand],
+            t[cand],
+            lo[cand].copy(),
+            np.ascontiguousarray(u0),
+            lnp,
+            ok,
+            u,
+        )
+        # The Newton answer must sit inside the bracket and agree with the flash.
+        span = np.abs(hi[cand] - lo[cand])
+        ok &= np.abs(lnp - 0.5 * (lo[cand] + hi[cand])) <= 0.5 * span + 1e-12
+        sign = np.sign(hi[cand] - lo[cand])  # +1 where the one-phase side is at higher pressure
+        d = 1e-7
+        probe = flash(
+            mixture,
+            np.exp(np.concatenate([lnp - sign * d, lnp + sign * d])),
+            np.concatenate([t[cand], t[cand]]),
+            np.concatenate([zz[cand], zz[cand]]),
+        )
+        m_ = cand.size
+        ok &= (probe.phase_count[:m_] == 2) & (probe.phase_count[m_:] == 1)
+        good = cand[ok]
+        pressure[good] = np.exp(lnp[ok])
+        w = zz[good] * np.exp(u[ok])
+        incipient[good] = w / w.sum(axis=1, keepdims=True)
+        valid_rest = valid.copy()
+        valid_rest[good] = False
+        valid[:] = valid_rest
+    bisect(rtol)  # where Newton did not settle it
+    rest = valid & np.isnan(pressure)
+    pressure[rest] = np.exp(0.5 * (lo[rest] + hi[rest]))
     pure = np.sum(zz > 0.0, axis=1) == 1
     if pure.any():
         comp = np.argmax(zz[pure], axis=1)
-        p_pure, _, _, ok = pure_vapour_pressure(mixture.model, comp, t[pure])
-        pressure[pure] = np.where(ok, p_pure, np.nan)
-        kind[pure] = np.where(ok, 3, 0)
-        incipient[pure] = np.where(ok[:, None], zz[pure], np.nan)
+        p_pure, _, _, ok_pure = pure_vapour_pressure(mixture.model, comp, t[pure])
+        pressure[pure] = np.where(ok_pure, p_pure, np.nan)
+        kind[pure] = np.where(ok_pure, 3, 0)
+        incipient[pure] = np.where(ok_pure[:, None], zz[pure], np.nan)
     return pressure, kind, incipient
