@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import shutil
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -357,3 +358,15 @@ def test_simplex_sample_run(tmp_path):
                           ds.feed_composition.values)
     assert np.array_equal(ds.phase_count.values, ref.phase_count)
     assert np.max(np.abs(ds.vapour_fraction.values - ref.vapour_fraction)) <= 1e-8
+
+
+def test_example_training_samples_config():
+    """configs/training_samples.toml parses to the design its comments describe."""
+    path = Path(__file__).resolve().parents[1] / "configs" / "training_samples.toml"
+    assert "INVENTED SCENARIO" in path.read_text()
+    spec = load_config(path)
+    design = spec.sampling
+    assert (design.points, design.sequence, design.composition) == (4096, "sobol", "mixing")
+    assert design.pressure == (5.0e6, 4.3e7)  # 50 .. 430 bar
+    assert design.temperature == pytest.approx((333.15, 393.15), abs=1e-12)  # 60 .. 120 degC
+    assert spec.run.chunks == (("sample", 1024),) and len(spec.fluid.components) == 10
