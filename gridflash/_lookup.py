@@ -384,8 +384,9 @@ def _outside_message(ds, dims, axes, queries, pressure_unit, temperature_unit) -
 
 
 def _from_kelvin_text(kelvin: float, unit: str) -> str:
-    offset = temperature_to_kelvin(0.0, unit)
-    scale = temperature_to_kelvin(1.0, unit) - offset
+    low = float(temperature_to_kelvin(1000.0, unit))  # two temperatures valid in every unit
+    scale = (float(temperature_to_kelvin(2000.0, unit)) - low) / 1000.0
+    offset = low - 1000.0 * scale
     return f"{(kelvin - offset) / scale:g} {unit}"
 
 

@@ -401,8 +401,10 @@ class _Scales:
         except ConfigError as exc:
             raise InputError(str(exc)) from None
         self.p_factor = float(pressure_to_pa(1.0, self.p_unit))
-        self.t_offset = float(temperature_to_kelvin(0.0, self.t_unit))
-        self.t_factor = float(temperature_to_kelvin(1.0, self.t_unit)) - self.t_offset
+        # T/K = offset + factor * t; from two temperatures valid in every unit
+        low = float(temperature_to_kelvin(1000.0, self.t_unit))
+        self.t_factor = (float(temperature_to_kelvin(2000.0, self.t_unit)) - low) / 1000.0
+        self.t_offset = low - 1000.0 * self.t_factor
 
     def convert(self, dim: str, values) -> np.ndarray:
         values = np.asarray(values, dtype=float)
@@ -433,7 +435,7 @@ class _Scales:
             shown = {"degC": "°C", "degF": "°F"}.get(self.t_unit, self.t_unit)
             return f"temperature ({shown})"
         if dim == "mixing_ratio" and "stream" in table.coords and table.sizes["stream"] == 2:
-            second = str(table.stream.values[1])
+            second = str(table.stream.values[1]).replace("_", " ")
             return f"mixing ratio (mole fraction of {second} in the feed)"
         if dim == "mixture":
             return "mixture number"
