@@ -169,7 +169,7 @@ def lookup(
         raise InputError(str(exc)) from None
     except (TypeError, ValueError):
         raise InputError("pressure and temperature must be numbers or arrays of numbers") from None
-    comp_values = np.asarray(ds[comp_dim].values, dtype=float)
+    comp_values = _values(ds, comp_dim)
     if composition is None:
         if comp_values.size != 1:
             raise InputError(
@@ -191,8 +191,8 @@ def lookup(
         ) from None
 
     axes = (
-        _locate(ds.pressure.values, p_query),
-        _locate(ds.temperature.values, t_query),
+        _locate(_values(ds, "pressure"), p_query),
+        _locate(_values(ds, "temperature"), t_query),
         _locate_discrete(comp_values, c_query, comp_dim) if comp_dim == "mixture"
         else _locate(comp_values, c_query),
     )
@@ -201,40 +201,38 @@ def lookup(
         raise InputError(_outside_message(ds, dims, axes, (p_query, t_query, c_query),
                                           pressure_unit, temperature_unit))
 
-    # Corner indices and weights, shape (n_points, 2**3); outside points use node 0, weight 0.
-    corner_idx = []
+    # Corner nodes (flat indices into the grid) and weights, shape (n_points, 2**3). Along an
+    # axis where a point sits on a node (weight 0) both corners are that node, so a corner
+    # without weight repeats one with weight: it brings in neither a NaN nor a phase count of
+    # its own. Points outside use node 0 with weight 0.
+    shape = tuple(ds.sizes[d] for d in dims)
+    corner_flat = np.empty((p_query.size, 8), dtype=np.intp)
     corner_w = np.ones((p_query.size, 8))
     for k, offsets in enumerate(product((0, 1), repeat=3)):
         idx = []
         for axis, off in zip(axes, offsets, strict=True):
-            idx.append(np.where(inside, axis.lower + off, 0))
+            idx.append(np.where(inside, axis.lower + off * (axis.weight > 0.0), 0))
             corner_w[:, k] *= axis.weight if off else 1.0 - axis.weight
-        corner_idx.append(idx)
-    index = [np.stack([corner_idx[k][d] for k in range(8)], axis=1) for d in range(3)]
-    corner_w = np.where(inside[:, None], corner_w, 0.0)
-    used = corner_w > 0.0
+        corner_flat[:, k] = np.ravel_multi_index(idx, shape)
+    corner_w[~inside] = 0.0
 
     wanted = [*names, "phase_count", "phase_label", "converged", *(["k_value"] if refine else [])]
-    gathered = _gather(ds, dims, wanted, index)
-    count = gathered["phase_count"].astype(np.int16)
-    label = gathered["phase_label"].astype(np.int16)
-    big = np.int16(99)
-    count_lo = np.where(used, count, big).min(axis=1)
-    count_hi = np.where(used, count, -big).max(axis=1)
-    label_lo = np.where(used, label, big).min(axis=1)
-    label_hi = np.where(used, label, -big).max(axis=1)
+    gathered = _gather(ds, dims, wanted, corner_flat, shape)
+    count, label = gathered["phase_count"], gathered["phase_label"]
+    count_lo, count_hi = count.min(axis=1), count.max(axis=1)
+    label_lo, label_hi = label.min(axis=1), label.max(axis=1)
     boundary = inside & (count_lo != count_hi)
     label_change = inside & ~boundary & (label_lo != label_hi)
     agreed = inside & ~boundary
     out_count = np.where(agreed, count_lo, 0).astype(np.int8)
     out_label = np.where(agreed & ~label_change, label_lo, -1).astype(np.int8)
-    converged = inside & np.where(used, gathered["converged"], True).all(axis=1)
+    converged = inside & gathered["converged"].all(axis=1)
 
     fields: dict[str, NDArray[np.float64]] = {}
     for name in names:
-        values = gathered[name].astype(float)
-        w = corner_w if values.ndim == 2 else corner_w[:, :, None]
-        fields[name] = (np.where(w > 0.0, values, 0.0) * w).sum(axis=1)
+        values = np.asarray(gathered[name], dtype=float)
+        spec = "nk,nk->n" if values.ndim == 2 else "nk,nkc->nc"
+        fields[name] = np.einsum(spec, corner_w, values)
         fields[name][~inside] = np.nan
 
     feed = _feeds(ds, comp_dim, axes[2], c_query, inside)
@@ -277,7 +275,7 @@ def _as_table(table: xr.Dataset | str | os.PathLike[str]) -> xr.Dataset:
 def _grid_dims(ds: xr.Dataset) -> tuple[str, str, str]:
     if "phase_count" not in ds.data_vars:
         raise StoreError("the dataset has no 'phase_count'; give a table from gridflash.open_table")
-    dims = tuple(ds.phase_count.dims)
+    dims = tuple(ds.variables["phase_count"].dims)
     if len(dims) != 3 or dims[:2] != ("pressure", "temperature") or dims[2] not in (
         "mixing_ratio", "mixture"
     ):
@@ -297,7 +295,7 @@ def _check_variables(ds: xr.Dataset, dims: tuple[str, ...],
         variables = [variables]
     names = list(dict.fromkeys(variables))
     for name in names:
-        if name not in ds.data_vars or tuple(ds[name].dims[:3]) != dims:
+        if name not in ds.data_vars or tuple(ds.variables[name].dims[:3]) != dims:
             grid_floats = sorted(
                 v for v in ds.data_vars
                 if tuple(ds[v].dims[:3]) == dims and ds[v].dtype.kind == "f"
@@ -306,7 +304,7 @@ def _check_variables(ds: xr.Dataset, dims: tuple[str, ...],
                 f"variables: {name!r} is not a per-cell field of this table; choose from "
                 f"{', '.join(grid_floats)}"
             )
-        if ds[name].dtype.kind != "f":
+        if ds.variables[name].dtype.kind != "f":
             raise InputError(
                 f"variables: {name!r} is not a float field and cannot be interpolated "
                 "(phase_count, phase_label and converged are always returned)"
@@ -331,7 +329,9 @@ def _locate(nodes: NDArray[np.float64], query: NDArray[np.float64]) -> _Axis:
     lower = np.clip(np.searchsorted(nodes, q, side="right") - 1, 0, n - 2)
     span = nodes[lower + 1] - nodes[lower]
     weight = np.clip((q - nodes[lower]) / span, 0.0, 1.0)
-    weight = np.where(inside, weight, 0.0)
+    on_upper = weight >= 1.0  # the last node: lower it onto that node with weight 0
+    lower = np.where(on_upper, lower + 1, lower)
+    weight = np.where(inside & ~on_upper, weight, 0.0)
     return _Axis(lower.astype(np.intp), weight, inside)
 
 
@@ -354,6 +354,10 @@ def _locate_discrete(nodes: NDArray[np.float64], query: NDArray[np.float64], dim
     return _Axis(lower, np.zeros(query.shape), inside)
 
 
+def _values(ds: xr.Dataset, name: str) -> NDArray[np.float64]:
+    return np.asarray(ds.variables[name].values, dtype=float)
+
+
 def _span(values: NDArray[np.float64], scale: float = 1.0, offset: float = 0.0,
           unit: str = "") -> str:
     lo, hi = values[0] / scale - offset, values[-1] / scale - offset
@@ -367,7 +371,7 @@ def _outside_message(ds, dims, axes, queries, pressure_unit, temperature_unit) -
         if axis.inside.all():
             continue
         i = int(np.argmin(axis.inside))
-        nodes = np.asarray(ds[dim].values, dtype=float)
+        nodes = _values(ds, dim)
         if dim == "pressure":
             shown = f"{query[i] / scale_p:g} {pressure_unit}"
             span = _span(nodes, scale_p, unit=pressure_unit)
@@ -396,19 +400,22 @@ def _from_kelvin_text(kelvin: float, unit: str) -> str:
 
 
 def _gather(ds: xr.Dataset, dims: tuple[str, ...], names: Sequence[str],
-            index: Sequence[NDArray[np.intp]]) -> dict[str, np.ndarray]:
+            flat: NDArray[np.intp], shape: tuple[int, ...]) -> dict[str, np.ndarray]:
     """Values of each variable at the corner nodes: (n, 8) or (n, 8, n_components)."""
     import dask
     import dask.array as da
 
     lazy = {}
     for name in dict.fromkeys(names):
-        var = ds[name]
-        data = var.transpose(*dims, *[d for d in var.dims if d not in dims]).data
+        var = ds.variables[name]  # a Variable: much cheaper than a DataArray per call
+        order = (*dims, *[d for d in var.dims if d not in dims])
+        data = (var if var.dims == order else var.transpose(*order)).data
         if isinstance(data, da.Array):
-            lazy[name] = data.vindex[tuple(index)]
+            lazy[name] = data.vindex[np.unravel_index(flat, shape)]
         else:
-            lazy[name] = np.asarray(data)[tuple(index)]
+            data = np.asarray(data)
+            rows = data.reshape(int(np.prod(shape)), -1)[flat]
+            lazy[name] = rows if data.ndim > len(shape) else rows[..., 0]
     keys = [k for k, v in lazy.items() if isinstance(v, da.Array)]
     if keys:
         computed = dask.compute(*(lazy[k] for k in keys), scheduler="threads")
@@ -419,12 +426,14 @@ def _gather(ds: xr.Dataset, dims: tuple[str, ...], names: Sequence[str],
 def _feeds(ds: xr.Dataset, comp_dim: str, axis: _Axis, query: NDArray[np.float64],
            inside: NDArray[np.bool_]) -> np.ndarray:
     """Feed mole fractions at each point's composition coordinate."""
-    feeds = np.asarray(ds.feed_composition.transpose(comp_dim, "component").values, dtype=float)
+    feeds = np.asarray(ds.variables["feed_composition"].transpose(comp_dim, "component").values,
+                       dtype=float)
     if comp_dim == "mixing_ratio" and "stream_composition" in ds and ds.sizes.get("stream") == 2:
         # The mixing line of the two streams, z = (1 - r) z_first + r z_second, as the stored
         # feeds were made (gridflash._grid.mixing_line).
-        streams = np.asarray(ds.stream_composition.transpose("stream", "component").values)
-        nodes = np.asarray(ds[comp_dim].values, dtype=float)
+        streams = np.asarray(ds.variables["stream_composition"].transpose("stream",
+                                                                          "component").values)
+        nodes = _values(ds, comp_dim)
         ratio = np.clip(query, nodes[0], nodes[-1])[:, None]
         out = (1.0 - ratio) * streams[0][None, :] + ratio * streams[1][None, :]
     else:
@@ -462,7 +471,7 @@ def _as_dataset(ds, comp_dim, names, fields, p, t, c, feed, count, label, bounda
     data = {}
     for name in names:
         dims = ("point",) if fields[name].ndim == 1 else ("point", "component")
-        data[name] = (dims, fields[name], dict(ds[name].attrs))
+        data[name] = (dims, fields[name], dict(ds.variables[name].attrs))
     data["feed_composition"] = (("point", "component"), feed,
                                 {"units": "1", "long_name": "mole fraction of each component in "
                                  "the feed at the point"})
@@ -487,7 +496,7 @@ def _as_dataset(ds, comp_dim, names, fields, p, t, c, feed, count, label, bounda
     coords = {
         "pressure": ("point", p, {"units": "Pa", "long_name": "pressure (absolute)"}),
         "temperature": ("point", t, {"units": "K", "long_name": "temperature"}),
-        comp_dim: ("point", c, dict(ds[comp_dim].attrs)),
-        "component": ("component", np.asarray(ds.component.values)),
+        comp_dim: ("point", c, dict(ds.variables[comp_dim].attrs)),
+        "component": ("component", np.asarray(ds.variables["component"].values)),
     }
     return xr.Dataset(data, coords=coords)
