@@ -391,12 +391,16 @@ def _format_summary(summary, spec) -> str:
     stats = summary.stats
     dims = spec.dims
     shape = " x ".join(f"{n} {d}" for n, d in zip(spec.shape, dims, strict=True))
+    what = "grid"
+    if spec.sampling is not None:
+        what = "samples"
+        shape = f"scrambled {spec.sampling.sequence}, seed {spec.sampling.seed}"
     attrs = stats.as_attrs()
     where = (f"scheduler {summary.scheduler}" if summary.scheduler not in ("threads", "processes")
              else f"local {summary.scheduler}")
     lines = [
         f"wrote {summary.output} (complete)",
-        f"  grid: {shape} = {summary.cells_total:,} cells in {summary.blocks_total} chunks",
+        f"  {what}: {shape} = {summary.cells_total:,} cells in {summary.blocks_total} chunks",
         f"  chunks: {summary.blocks_computed} computed, {summary.blocks_reused} reused",
         f"  cells: {stats.two_phase:,} two-phase, {stats.single_phase:,} single-phase, "
         f"{stats.unconverged:,} unconverged",

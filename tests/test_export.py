@@ -305,8 +305,12 @@ def test_cli_run_and_export_a_sampling_config(tmp_path):
     """End to end in a subprocess: run a sampling config, export it, read it back."""
     config = write_sample_config(tmp_path, points=32, chunk=16)
     out = tmp_path / "t.parquet"
-    for args in (["run", config, "--quiet"], ["export", tmp_path / "samples.zarr", "--out", out]):
+    outputs = []
+    for args in (["run", config], ["export", tmp_path / "samples.zarr", "--out", out]):
         done = subprocess.run([sys.executable, "-m", "gridflash.cli", *map(str, args)],
                               capture_output=True, text=True, timeout=120)
         assert done.returncode == 0, done.stderr
+        outputs.append(done.stdout)
+    assert "samples: scrambled sobol, seed 20240611 = 32 cells in 2 chunks" in outputs[0]
+    assert "32 rows of 32 cells" in outputs[1]
     assert pq.read_table(out).num_rows == 32
