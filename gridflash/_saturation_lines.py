@@ -4,7 +4,9 @@ For every line of a table at fixed temperature and composition, the stored phase
 the pressure axis show between which grid pressures the feed leaves the two-phase region. The
 saturation pressure itself is not read off the grid: it is solved for between those two grid
 pressures by :func:`gridflash.thermo.saturation_pressure` (bisection on the flash's own phase
-count), so it is the exact pressure at which the table's flash changes its answer. Along each
+count, finished by Newton's method on the incipient-phase equations and accepted only where the
+flash agrees 1e-7 either side), so it is the pressure at which the table's flash changes its
+answer. Along each
 composition, the largest saturation pressure over temperature (the cricondenbar) is refined by a
 bracketed golden-section search over temperature.
 
@@ -45,7 +47,7 @@ SATURATION_VARIABLES: tuple[str, ...] = (
     "cricondenbar_temperature",
 )
 
-#: Relative width of the final bisection bracket of each saturation pressure.
+#: Relative width of the final bracket where the solver has to finish by bisection.
 _RTOL = 1e-10
 #: Golden-section search over temperature stops when its bracket is this narrow (K).
 _T_TOL = 1e-3
