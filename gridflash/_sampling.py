@@ -37,7 +37,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.stats import qmc
 
 from ._errors import InputError
 from ._spec import SampleDesign
@@ -120,6 +119,8 @@ def unit_points(
         raise InputError(f"sequence={sequence!r} is not one of {SEQUENCES!r}")
     if not 0 <= start <= stop:
         raise InputError(f"index range {start!r}..{stop!r} must satisfy 0 <= start <= stop")
+    from scipy.stats import qmc  # imported here: scipy.stats takes ~1 s to import
+
     engine_type = qmc.Sobol if sequence == "sobol" else qmc.Halton
     engine = engine_type(int(dimension), scramble=True, rng=int(seed))
     if start:

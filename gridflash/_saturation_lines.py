@@ -19,6 +19,7 @@ import contextlib
 import os
 import warnings
 from collections.abc import Iterator
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import numpy as np
@@ -50,12 +51,13 @@ SATURATION_VARIABLES: tuple[str, ...] = (
 #: Relative width of the final bracket where the solver has to finish by bisection.
 _RTOL = 1e-10
 #: Golden-section search over temperature stops when its bracket is this narrow (K).
-_T_TOL = 1e-3
+_T_TOL = 0.05
 #: Step (fraction of the end interval) used to see which way the saturation pressure slopes at
 #: an end of the temperature axis.
 _END_STEP = 1e-3
 #: Factor and number of steps by which a one-phase bracket end is raised when it is not.
 _RAISE_FACTOR = 1.25
+_MIN_LINES_PER_THREAD = 64  # below this, one thread (thread start-up would dominate)
 _RAISE_STEPS = 20
 _INV_PHI = (np.sqrt(5.0) - 1.0) / 2.0
 
@@ -118,7 +120,8 @@ def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr
     range (then the maximum lies in the end interval) or still rises towards the end (then the
     cricondenbar lies outside the table's temperatures: NaN). The maximum is then refined by a
     golden-section search (Kiefer, Proc. AMS 4 (1953) 502) over temperature on that bracket,
-    down to 1e-3 K, every evaluation a :func:`~gridflash.thermo.saturation_pressure` call; the
+    down to 0.05 K (the pressure is flat there, so its error is of second order), every
+    evaluation a :func:`~gridflash.thermo.saturation_pressure` call; the
     largest pressure evaluated (grid temperature included) is returned. Where any temperature
     of the composition is still two-phase at the top of the table, the cricondenbar lies above
     the table's pressures: NaN.
@@ -162,8 +165,7 @@ def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr
         pressure[np.maximum(k_lo[lo_idx] - 1, 0)]])
     idx = np.concatenate([up_idx, lo_idx])
     if idx.size:
-        p_sat, kind, _ = saturation_pressure(mixture, t_line[idx], z_line[idx], inside, outside,
-                                             rtol=_RTOL)
+        p_sat, kind = _saturation_threads(mixture, t_line[idx], z_line[idx], inside, outside)
         n_up = up_idx.size
         upper_p[up_idx], upper_kind[up_idx] = p_sat[:n_up], kind[:n_up]
         lower_p[lo_idx], lower_kind[lo_idx] = p_sat[n_up:], kind[n_up:]
@@ -317,8 +319,28 @@ def _saturation_at(
         if not low.any():
             break
         p_one[low] *= _RAISE_FACTOR
-    p_sat, kind, _ = saturation_pressure(mixture, temperature, z, p_two, p_one, rtol=_RTOL)
+    p_sat, kind = _saturation_threads(mixture, temperature, z, p_two, p_one)
     return np.where(kind > 0, p_sat, np.nan)
+
+
+def _saturation_threads(mixture, temperature, z, p_two, p_one):
+    """:func:`saturation_pressure` over all cores: the lines are cut into one slice per core and
+    solved in threads (the compiled flash releases the GIL). Each line's answer is independent of
+    the others, so the result is the same as one call."""
+    n = temperature.shape[0]
+    parts = min(os.cpu_count() or 1, max(1, n // _MIN_LINES_PER_THREAD))
+    if parts <= 1:
+        p_sat, kind, _ = saturation_pressure(mixture, temperature, z, p_two, p_one, rtol=_RTOL)
+        return p_sat, kind
+    bounds = np.linspace(0, n, parts + 1).astype(int)
+    slices = [slice(a, b) for a, b in zip(bounds[:-1], bounds[1:], strict=True)]
+    with ThreadPoolExecutor(max_workers=parts) as pool:
+        out = list(pool.map(
+            lambda s: saturation_pressure(mixture, temperature[s], z[s], p_two[s], p_one[s],
+                                          rtol=_RTOL)[:2],
+            slices,
+        ))
+    return np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out])
 
 
 def _cricondenbars(

@@ -55,7 +55,7 @@ TM_UNSTABLE = -1e-10  # tm below this at a stationary point: unstable
 TM_EARLY_EXIT = -1e-6  # tm below this during iterations: unstable, stop early
 TRIVIAL_KS = 1e-8  # sum (ln Ks)^2 below this with tm >= 0: converging to the feed
 STAB_MAXITER = 200
-STAB_GDEM_EVERY = 5
+STAB_GDEM_EVERY = 3
 STAB_NEWTON_AFTER = 12
 STAB_MAX_HALVINGS = 8
 # Stability outcomes
@@ -68,7 +68,7 @@ FAILED = 3
 TOL_RESIDUAL = 1e-10  # max |ln f_i^V - ln f_i^L| of a converged cell
 TOL_BALANCE = 1e-12  # material balance of a converged cell
 NEWTON_TARGET = 1e-12
-SWITCH_RESIDUAL = 1e-5
+SWITCH_RESIDUAL = 1e-3
 WARM_SWITCH_RESIDUAL = 1.0  # a neighbour's K-values are close: Newton at once
 SWITCH_AFTER = 25
 SPLIT_GDEM_EVERY = 5

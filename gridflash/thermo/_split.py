@@ -122,7 +122,7 @@ def two_phase_split(
 
     Notes
     -----
-    Substitution hands over to Newton below a residual of 1e-5 or after 25 steps, provided both
+    Substitution hands over to Newton below a residual of 1e-3 (at once for a warm start) or after 25 steps, provided both
     phases hold more than 1e-6 of the feed; GDEM extrapolation every fifth step is kept only if
     it lowers the Gibbs energy. A split whose ``max |ln K|`` falls below 1e-5 has collapsed to
     the trivial solution.
