@@ -1,9 +1,9 @@
 """Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
 
 Run: ``python benchmarks/bench_runner.py [--quick]``. For each case it starts ``gridflash run``
-as a subprocess with local worker threads (the default; or processes, or one worker), samples the resident memory (RSS) of
-the whole process tree (driver, workers, everything they start) every 50 ms, and prints wall
-time, cells/s and peak RSS. Baselines measured in this same process:
+as a subprocess with local worker threads (the default; or processes, or one worker), samples
+the resident memory (RSS) of the whole process tree (driver, workers, everything they start)
+every 50 ms, and prints wall time, cells/s and peak RSS. Baselines measured in this same process:
 
 - kernel: one direct ``gridflash.flash`` call on 20 000 cells of the same grid (one core), so the
   run's cells/s is printed as a ratio to ``cores x`` the kernel's rate;
@@ -30,11 +30,11 @@ from pathlib import Path
 import numpy as np
 import psutil
 
+from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8  # invented benchmark fluid (not field data)
+
 import gridflash
 
 ROOT = Path(__file__).resolve().parents[1]
-
-from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8  # invented benchmark fluid (not field data)
 
 CONFIG = """\
 # Invented benchmark fluid (not field data).

@@ -14,7 +14,14 @@ from numpy.typing import NDArray
 
 from .thermo import FlashResult, Mixture, flash
 
-__all__ = ["BLOCK_FIELDS", "CELL_FIELDS", "COMPONENT_FIELDS", "BlockResult", "slab_indices", "sweep_block"]
+__all__ = [
+    "BLOCK_FIELDS",
+    "CELL_FIELDS",
+    "COMPONENT_FIELDS",
+    "BlockResult",
+    "slab_indices",
+    "sweep_block",
+]
 
 #: Per-cell fields of a block result: FlashResult attribute paths, plus ``warm_start``.
 CELL_FIELDS: tuple[str, ...] = (

@@ -124,8 +124,8 @@ def two_phase_split(
     -----
     Substitution hands over to Newton below a residual of 1e-3 (at once for a warm start) or
     after 25 steps, provided both phases hold more than 1e-6 of the feed; GDEM extrapolation
-    every fifth step is kept only if it lowers the Gibbs energy. A split whose ``max |ln K|`` falls below 1e-5 has collapsed to
-    the trivial solution.
+    every fifth step is kept only if it lowers the Gibbs energy. A split whose ``max |ln K|``
+    falls below 1e-5 has collapsed to the trivial solution.
     """
     return _run(model, sqrt_a, b_i, z, ln_k0, warm=warm)
 
