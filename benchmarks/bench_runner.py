@@ -29,7 +29,6 @@ from pathlib import Path
 
 import numpy as np
 import psutil
-
 from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8  # invented benchmark fluid (not field data)
 
 import gridflash
