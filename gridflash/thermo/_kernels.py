@@ -703,6 +703,35 @@ def _from_lnk(z, present, ln_k, x, y):
 
 
 @njit(**_JIT)
+def _evaluate_lnk(
+    z, present, lnk, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v, lnk_next
+):
+    """Rachford-Rice split for ln K, then the EOS; returns (beta, inside, z_l, z_v, residual,
+    gibbs), ``inside`` meaning Rachford-Rice converged with 0 < beta < 1."""
+    beta, rr_ok = _from_lnk(z, present, lnk, x, y)
+    zl, zv, res, gibbs, _, _, _, _ = _evaluate(
+        z,
+        present,
+        beta,
+        x,
+        y,
+        sqrt_a,
+        b_i,
+        omk,
+        d1,
+        d2,
+        lnk,
+        True,
+        lnphi_l,
+        lnphi_v,
+        psi_l,
+        psi_v,
+        lnk_next,
+    )
+    return beta, rr_ok and 0.0 < beta < 1.0, zl, zv, res, gibbs
+
+
+@njit(**_JIT)
 def _store(o_x, o_y, o_lnk, x, y, lnk_next, present):
     for i in range(x.shape[0]):
         o_x[i] = x[i]
@@ -760,11 +789,10 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
     to_newton = False
     for it in range(1, max_ss + 1):
         iters = it
-        beta, rr_ok = _from_lnk(z, present, lnk, x, y)
-        zl, zv, res, gibbs, _, _, _, _ = _evaluate(
+        beta, inside, zl, zv, res, gibbs = _evaluate_lnk(
             z,
             present,
-            beta,
+            lnk,
             x,
             y,
             sqrt_a,
@@ -772,23 +800,19 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
             omk,
             d1,
             d2,
-            lnk,
-            True,
             lnphi_l,
             lnphi_v,
             psi_l,
             psi_v,
             lnk_next,
         )
-        inside = rr_ok and 0.0 < beta < 1.0
         if accelerated and inside and gibbs > gibbs_prev + 1e-12 * abs(gibbs_prev):
             for i in range(nc):
                 lnk[i] = plain_next[i]
-            beta, rr_ok = _from_lnk(z, present, lnk, x, y)
-            zl, zv, res, gibbs, _, _, _, _ = _evaluate(
+            beta, inside, zl, zv, res, gibbs = _evaluate_lnk(
                 z,
                 present,
-                beta,
+                lnk,
                 x,
                 y,
                 sqrt_a,
@@ -796,15 +820,12 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
                 omk,
                 d1,
                 d2,
-                lnk,
-                True,
                 lnphi_l,
                 lnphi_v,
                 psi_l,
                 psi_v,
                 lnk_next,
             )
-            inside = rr_ok and 0.0 < beta < 1.0
         accelerated = False
         finite = math.isfinite(res) and math.isfinite(beta)
         maxlnk = 0.0
@@ -975,29 +996,22 @@ def newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, v0, robust, o_x, o_y, o_ln
             break
         improving = res < 0.5 * best
         stall = 0 if improving else stall + 1
-        if res <= best:
-            status = CONVERGED if res < TOL_RESIDUAL else MAX_ITERATIONS
-            beta_o = vs
-            zl_o = zl
-            zv_o = zv
-            res_o = res
-            g_o = gibbs
-            _store(o_x, o_y, o_lnk, x, y, lnk_next, present)
-            bal_o = _balance(z, vs, x, y)
-            best = res
         maxlnk = 0.0
         for i in range(nc):
             if present[i]:
                 maxlnk = max(maxlnk, abs(math.log(y[i] / x[i])))
-        if maxlnk < TRIVIAL_LNK:
-            status = TRIVIAL_SOLUTION
-            beta_o = vs
-            zl_o = zl
-            zv_o = zv
-            res_o = res
-            g_o = gibbs
+        trivial = maxlnk < TRIVIAL_LNK
+        if res <= best or trivial:
+            # Keep the best point so far (and a collapsed one, to report it).
+            if trivial:
+                status = TRIVIAL_SOLUTION
+            else:
+                status = CONVERGED if res < TOL_RESIDUAL else MAX_ITERATIONS
+                best = res
+            beta_o, zl_o, zv_o, res_o, g_o = vs, zl, zv, res, gibbs
             _store(o_x, o_y, o_lnk, x, y, lnk_next, present)
             bal_o = _balance(z, vs, x, y)
+        if trivial:
             break
         stalled = stall >= 3 and best < 1e-8
         if res < NEWTON_TARGET or stalled:
