@@ -11,6 +11,7 @@ __all__ = ["pure_vapour_pressure", "saturation_pressure"]
 
 _TOL = 1e-12
 _MAXITER = 100
+_NEWTON_BRACKET = 0.05  # bisection narrows brackets wider than this (relative) before Newton
 
 
 def _pure_ln_phi(z, a, b, d1, d2):
@@ -85,14 +86,14 @@ def saturation_pressure(
     """Bubble- or dew-point pressure of each feed between a two-phase and a one-phase pressure.
 
     The bracket is first narrowed by bisection in ``ln P`` on the phase count of the full flash
-    (stability test included) to a relative width of 1e-3; the kind of point follows from the
-    vapour fraction at the two-phase end (near 0: bubble point, near 1: dew point). Newton's
+    (stability test included) to a relative width of 5e-2. Newton's
     method on the incipient-phase equations ``ln(w_i / z_i) + ln phi_i(w) - ln phi_i(z) = 0``,
     ``sum w_i = 1`` (Michelsen & Mollerup 2007, ch. 12) then gives the EOS saturation pressure,
     started from that end's K-values. The answer is kept only if the flash agrees with it: two
     phases 1e-7 (relative) inside it and one phase 1e-7 outside. Where Newton fails or the flash
     disagrees, bisection continues down to ``rtol``, so the result is always the pressure at
-    which :func:`gridflash.flash` itself changes its answer.
+    which :func:`gridflash.flash` itself changes its answer. The kind of point follows from the
+    vapour fraction just inside the two-phase region (near 0: bubble point, near 1: dew point).
 
     Parameters
     ----------
@@ -141,7 +142,7 @@ def saturation_pressure(
             lo[idx[two]] = mid[two]
             hi[idx[~two]] = mid[~two]
 
-    bisect(max(1e-3, rtol))
+    bisect(max(_NEWTON_BRACKET, rtol))
     inside = flash(mixture, np.exp(lo), t, zz)
     beta = inside.vapour_fraction
     kind = np.where(valid & (inside.phase_count == 2), np.where(beta < 0.5, 1, 2), 0).astype(
@@ -193,12 +194,19 @@ def saturation_pressure(
         pressure[good] = np.exp(lnp[ok])
         w = zz[good] * np.exp(u[ok])
         incipient[good] = w / w.sum(axis=1, keepdims=True)
-        valid_rest = valid.copy()
-        valid_rest[good] = False
-        valid[:] = valid_rest
-    bisect(rtol)  # where Newton did not settle it
-    rest = valid & np.isnan(pressure)
-    pressure[rest] = np.exp(0.5 * (lo[rest] + hi[rest]))
+        # The kind from the vapour fraction 1e-7 inside the boundary.
+        kind[good] = np.where(probe.vapour_fraction[:m_][ok] < 0.5, 1, 2)
+        valid[good] = False
+    # Where Newton did not settle it: bisection down to rtol, the kind and the incipient phase
+    # from the flash at the two-phase end of the final bracket.
+    bisect(rtol)
+    rest = np.flatnonzero(valid & np.isnan(pressure))
+    if rest.size:
+        pressure[rest] = np.exp(0.5 * (lo[rest] + hi[rest]))
+        end = flash(mixture, np.exp(lo[rest]), t[rest], zz[rest])
+        bubble = end.vapour_fraction < 0.5
+        kind[rest] = np.where(end.phase_count == 2, np.where(bubble, 1, 2), 0)
+        incipient[rest] = np.where(bubble[:, None], end.y, end.x)
     pure = np.sum(zz > 0.0, axis=1) == 1
     if pure.any():
         comp = np.argmax(zz[pure], axis=1)
