@@ -1445,56 +1445,47 @@ SAT_MAXITER = 50
 SAT_DLNP = 1e-6  # relative pressure step of the finite-difference d/d ln P
 
 
+# Rows of the saturation workspace ``ws`` (8, nc).
+_W, _WN, _LNPHI_W, _LNPHI_Z, _PSI_W, _PSI_Z, _SQRT_A, _B_I = range(8)
+
+
 @njit(**_JIT)
-def _sat_residual(
-    ac,
-    m,
-    b,
-    tc,
-    omk,
-    d1,
-    d2,
-    z,
-    present,
-    t,
-    lnp,
-    u,
-    w,
-    wn,
-    lnphi_w,
-    lnphi_z,
-    psi_w,
-    psi_z,
-    sqrt_a,
-    b_i,
-    f,
-):
-    """Residuals at (u, ln P); returns (Z_w, A_w, B_w, sum w)."""
+def _sat_residual(eos, z, present, t, lnp, u, ws, f):
+    """Residuals at (u, ln P) into ``f``; returns (Z_w, A_w, B_w, sum w).
+
+    ``eos`` is ``(ac, m, b, tc, omk, d1, d2)``; ``ws`` the workspace (rows named above).
+    """
+    ac, m, b, tc, omk, d1, d2 = eos
     nc = z.shape[0]
-    reduced_cell(ac, m, b, tc, math.exp(lnp), t, sqrt_a, b_i)
+    w, wn = ws[_W], ws[_WN]
+    reduced_cell(ac, m, b, tc, math.exp(lnp), t, ws[_SQRT_A], ws[_B_I])
     sw = 0.0
     for i in range(nc):
         w[i] = z[i] * math.exp(u[i]) if present[i] else 0.0
         sw += w[i]
     for i in range(nc):
         wn[i] = w[i] / sw
-    zw, aw, bw = phase_cell(wn, sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, lnphi_w, psi_w)
-    phase_cell(z, sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, lnphi_z, psi_z)
+    zw, aw, bw = phase_cell(
+        wn, ws[_SQRT_A], ws[_B_I], omk, d1, d2, ROOT_MIN_GIBBS, ws[_LNPHI_W], ws[_PSI_W]
+    )
+    phase_cell(z, ws[_SQRT_A], ws[_B_I], omk, d1, d2, ROOT_MIN_GIBBS, ws[_LNPHI_Z], ws[_PSI_Z])
     for i in range(nc):
-        f[i] = u[i] + lnphi_w[i] - lnphi_z[i] if present[i] else 0.0
+        f[i] = u[i] + ws[_LNPHI_W, i] - ws[_LNPHI_Z, i] if present[i] else 0.0
     f[nc] = sw - 1.0
     return zw, aw, bw, sw
 
 
 @njit(**_JIT)
-def saturation_newton_cell(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, u_out):
+def saturation_newton_cell(eos, z, t, lnp0, u0, u_out):
     """Saturation pressure of feed ``z`` at ``t`` from a start (ln P, u = ln(w / z)).
 
     Solves ``u_i + ln phi_i(w) - ln phi_i(z) = 0`` and ``sum w_i = 1`` for the incipient phase
     ``w = z exp(u)`` and ``ln P`` (Michelsen & Mollerup 2007, ch. 12), with the analytic
-    composition Jacobian and a finite-difference pressure column. Returns (ln P, converged);
-    converged is False on a collapse to the trivial solution (``max |u| < 1e-5``).
+    composition Jacobian and a finite-difference pressure column. ``eos`` is
+    ``(ac, m, b, tc, omk, d1, d2)``. Returns (ln P, converged); converged is False on a collapse
+    to the trivial solution (``max |u| < 1e-5``).
     """
+    omk, d1, d2 = eos[4], eos[5], eos[6]
     nc = z.shape[0]
     n = nc + 1
     present = np.empty(nc, dtype=np.bool_)
@@ -1502,14 +1493,7 @@ def saturation_newton_cell(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, u_out):
     for i in range(nc):
         present[i] = z[i] > 0.0
         u[i] = u0[i] if present[i] else 0.0
-    w = np.empty(nc)
-    wn = np.empty(nc)
-    lnphi_w = np.empty(nc)
-    lnphi_z = np.empty(nc)
-    psi_w = np.empty(nc)
-    psi_z = np.empty(nc)
-    sqrt_a = np.empty(nc)
-    b_i = np.empty(nc)
+    ws = np.empty((8, nc))
     f = np.empty(n)
     f2 = np.empty(n)
     jac = np.empty((n, n))
@@ -1519,29 +1503,7 @@ def saturation_newton_cell(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, u_out):
     lnp = lnp0
     converged = False
     for _ in range(SAT_MAXITER):
-        zw, aw, bw, sw = _sat_residual(
-            ac,
-            m,
-            b,
-            tc,
-            omk,
-            d1,
-            d2,
-            z,
-            present,
-            t,
-            lnp,
-            u,
-            w,
-            wn,
-            lnphi_w,
-            lnphi_z,
-            psi_w,
-            psi_z,
-            sqrt_a,
-            b_i,
-            f,
-        )
+        zw, aw, bw, sw = _sat_residual(eos, z, present, t, lnp, u, ws, f)
         norm = 0.0
         for i in range(n):
             norm = max(norm, abs(f[i]))
@@ -1556,40 +1518,18 @@ def saturation_newton_cell(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, u_out):
         if norm < SAT_TOL:
             converged = True
             break
-        dlnphi_cell(zw, aw, bw, psi_w, sqrt_a, b_i, omk, d1, d2, dphi)
+        dlnphi_cell(zw, aw, bw, ws[_PSI_W], ws[_SQRT_A], ws[_B_I], omk, d1, d2, dphi)
         for i in range(nc):
             for j in range(nc):
                 if present[i] and present[j]:
-                    jac[i, j] = dphi[i, j] * w[j] / sw
+                    jac[i, j] = dphi[i, j] * ws[_W, j] / sw
                 else:
                     jac[i, j] = 0.0
             jac[i, i] += 1.0
-            jac[nc, i] = w[i]
+            jac[nc, i] = ws[_W, i]
         jac[nc, nc] = 0.0
         # d/d ln P by a forward difference (u fixed).
-        _sat_residual(
-            ac,
-            m,
-            b,
-            tc,
-            omk,
-            d1,
-            d2,
-            z,
-            present,
-            t,
-            lnp + SAT_DLNP,
-            u,
-            w,
-            wn,
-            lnphi_w,
-            lnphi_z,
-            psi_w,
-            psi_z,
-            sqrt_a,
-            b_i,
-            f2,
-        )
+        _sat_residual(eos, z, present, t, lnp + SAT_DLNP, u, ws, f2)
         for i in range(nc):
             jac[i, nc] = (f2[i] - f[i]) / SAT_DLNP
         for i in range(n):
@@ -1610,8 +1550,6 @@ def saturation_newton_cell(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, u_out):
 
 
 @njit(**_JIT)
-def saturation_newton_batch(ac, m, b, tc, omk, d1, d2, z, t, lnp0, u0, lnp, converged, u_out):
+def saturation_newton_batch(eos, z, t, lnp0, u0, lnp, converged, u_out):
     for c in range(z.shape[0]):
-        lnp[c], converged[c] = saturation_newton_cell(
-            ac, m, b, tc, omk, d1, d2, z[c], t[c], lnp0[c], u0[c], u_out[c]
-        )
+        lnp[c], converged[c] = saturation_newton_cell(eos, z[c], t[c], lnp0[c], u0[c], u_out[c])

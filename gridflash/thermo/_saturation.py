@@ -161,21 +161,9 @@ def saturation_pressure(
         lnp = np.empty(cand.size)
         ok = np.empty(cand.size, dtype=np.bool_)
         u = np.empty((cand.size, zz.shape[1]))
+        eos = (model.ac, model.m, model.b, model.tc, model.one_minus_k, model.delta1, model.delta2)
         _k.saturation_newton_batch(
-            model.ac,
-            model.m,
-            model.b,
-            model.tc,
-            model.one_minus_k,
-            model.delta1,
-            model.delta2,
-            zz[cand],
-            t[cand],
-            lo[cand].copy(),
-            np.ascontiguousarray(u0),
-            lnp,
-            ok,
-            u,
+            eos, zz[cand], t[cand], lo[cand].copy(), np.ascontiguousarray(u0), lnp, ok, u
         )
         # The Newton answer must sit inside the bracket and agree with the flash.
         span = np.abs(hi[cand] - lo[cand])
