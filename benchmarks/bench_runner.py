@@ -183,7 +183,7 @@ def main() -> None:
         ("config default chunks, --processes", big, "", ["--processes"]),
         ("config default chunks, 1 worker", big, "", ["--workers", "1"]),
         (
-            "chunks 13 x 50 x 100",
+            "chunks 13 x 50 x 100 (pressure, the sweep axis, cut in 8)",
             big,
             "chunks = { pressure = 13, temperature = 50, composition = 100 }",
         ),

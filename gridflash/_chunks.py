@@ -20,7 +20,7 @@ from ._spec import RunSpec
 __all__ = [
     "DEFAULT_CHUNK_CELLS",
     "DEFAULT_SAMPLE_CHUNK",
-    "MIN_SWEEP_DEPTH",
+    "MAX_SWEEP_DEPTH",
     "BlockId",
     "ChunkPlan",
     "check_chunks_aligned",
@@ -30,9 +30,9 @@ __all__ = [
 
 #: Default chunks hold at most this many cells (about 0.4 MB per float variable).
 DEFAULT_CHUNK_CELLS = 65_536
-#: Default chunks keep at least this many slabs along the sweep dimension (when the axis is that
-#: long), so that all but one slab in eight or more is warm-started.
-MIN_SWEEP_DEPTH = 8
+#: Default chunks keep the sweep dimension whole up to this many slabs, so that every slab of a
+#: chunk but the first is warm-started.
+MAX_SWEEP_DEPTH = 1024
 
 #: Default chunk length of a sampling run (samples per task): a power of two, so that blocks of
 #: a Sobol' design are balanced, and enough samples for near neighbours to warm-start from.
@@ -138,7 +138,7 @@ class ChunkPlan:
 
 
 def default_chunks(shape: Sequence[int], sweep_axis: int) -> tuple[int, int, int]:
-    """Default chunk lengths: big slabs, a few slabs deep, at most ``DEFAULT_CHUNK_CELLS`` cells.
+    """Default chunk lengths: the whole sweep axis, at most ``DEFAULT_CHUNK_CELLS`` cells.
 
     Parameters
     ----------
@@ -153,22 +153,22 @@ def default_chunks(shape: Sequence[int], sweep_axis: int) -> tuple[int, int, int
 
     Notes
     -----
-    The flash kernel is vectorised over the cells of a slab and runs markedly slower per cell on
-    batches of a few hundred cells than on batches of several thousand, while warm starts only pay
-    from the second slab of a chunk on. So the non-sweep dimensions are kept as long as possible:
-    they are cut (the longest first, into near-equal parts) only until a slab holds at most
-    ``DEFAULT_CHUNK_CELLS / MIN_SWEEP_DEPTH`` cells; the sweep dimension is then cut into
-    near-equal parts so that a chunk holds at most ``DEFAULT_CHUNK_CELLS`` cells.
+    Warm starts pay from the second slab of a chunk on, and the compiled flash costs the same per
+    cell on small and large slabs, so the sweep dimension is kept whole (up to
+    ``MAX_SWEEP_DEPTH`` slabs) and the other dimensions are cut (the longest first, into
+    near-equal parts) until a slab holds at most ``DEFAULT_CHUNK_CELLS / depth`` cells; only a
+    sweep axis longer than ``MAX_SWEEP_DEPTH`` or a grid whose slabs cannot be cut further has its
+    sweep dimension cut too.
 
     Examples
     --------
     >>> default_chunks((100, 100, 100), sweep_axis=0)
-    (13, 50, 100)
+    (100, 25, 25)
     >>> default_chunks((5, 3, 6), sweep_axis=0)
     (5, 3, 6)
     """
     shape = [int(n) for n in shape]
-    depth = min(shape[sweep_axis], MIN_SWEEP_DEPTH)
+    depth = min(shape[sweep_axis], MAX_SWEEP_DEPTH)
     slab_cap = max(1, DEFAULT_CHUNK_CELLS // depth)
     sizes = list(shape)
     parts = [1, 1, 1]

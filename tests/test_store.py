@@ -17,7 +17,7 @@ import gridflash
 from gridflash import StoreError
 from gridflash._chunks import (
     DEFAULT_CHUNK_CELLS,
-    MIN_SWEEP_DEPTH,
+    MAX_SWEEP_DEPTH,
     ChunkPlan,
     check_chunks_aligned,
     chunk_plan,
@@ -52,11 +52,14 @@ def test_default_chunks_bounded_and_slab_maximal(shape, sweep):
     cells = math.prod(chunks)
     # Bounded memory: a chunk never holds more than DEFAULT_CHUNK_CELLS cells ...
     assert cells <= max(DEFAULT_CHUNK_CELLS, math.prod(shape[a] for a in range(3) if a != sweep))
-    # ... and the non-sweep axes are only cut when a slab would exceed its share.
+    # ... the sweep axis is kept whole when it is short enough ...
     others = [a for a in range(3) if a != sweep]
+    if shape[sweep] <= MAX_SWEEP_DEPTH and math.prod(chunks[a] for a in others) > 1:
+        assert chunks[sweep] == shape[sweep]
+    # ... and the non-sweep axes are only cut when a slab would exceed its share.
     if all(chunks[a] == shape[a] for a in others):
         return
-    depth = min(shape[sweep], MIN_SWEEP_DEPTH)
+    depth = min(shape[sweep], MAX_SWEEP_DEPTH)
     assert math.prod(shape[a] for a in others) > DEFAULT_CHUNK_CELLS // depth
 
 
