@@ -102,6 +102,19 @@ def reduced_cell(ac, m, b, tc, p, t, sqrt_a, b_i):
 
 
 @njit(**_JIT)
+def wilson_ln_k_cell(pc, tc, omega, p, t):
+    """Wilson's ``ln K = ln(Pc / P) + 5.373 (1 + w)(1 - Tc / T)`` (Wilson 1968)."""
+    return math.log(pc / p) + 5.373 * (1.0 + omega) * (1.0 - tc / t)
+
+
+@njit(**_JIT)
+def wilson_batch(pc, tc, omega, p, t, out):
+    for c in range(p.shape[0]):
+        for i in range(pc.shape[0]):
+            out[c, i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p[c], t[c])
+
+
+@njit(**_JIT)
 def _polish(z, c2, c1, c0):
     for _ in range(2):
         f = ((z + c2) * z + c1) * z + c0
@@ -1232,7 +1245,7 @@ def flash_batch(
                     done = True
         if not done:
             for i in range(nc):
-                ln_kw[i] = math.log(pc[i] / p[c]) + 5.373 * (1.0 + omega[i]) * (1.0 - tc[i] / t[c])
+                ln_kw[i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p[c], t[c])
             stable, tpd_c, st_it, conclusive, root_failure = stability_cell(
                 zc,
                 present,

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from . import _kernels as _k
 from ._cubic import R
 from ._result import PhaseLabel, PhaseProperties
 
@@ -29,11 +30,15 @@ def wilson_ln_k(tc, pc, omega, pressure, temperature):
     """Wilson's K-value estimate ``ln K_i = ln(Pc_i / P) + 5.373 (1 + w_i)(1 - Tc_i / T)``.
 
     Wilson, G. M. (1968), A modified Redlich-Kwong equation of state, AIChE 64th National Meeting.
-    Returns shape (n, nc) for ``pressure``, ``temperature`` of shape (n,).
+    Returns shape (n, nc) for ``pressure``, ``temperature`` of shape (n,); the compiled flash
+    uses the same function (``_kernels.wilson_ln_k_cell``).
     """
-    p = np.asarray(pressure, dtype=float)[:, None]
-    t = np.asarray(temperature, dtype=float)[:, None]
-    return np.log(pc / p) + 5.373 * (1.0 + omega) * (1.0 - tc / t)
+    p = np.ascontiguousarray(pressure, dtype=float)
+    t = np.ascontiguousarray(temperature, dtype=float)
+    tc, pc, omega = (np.ascontiguousarray(a, dtype=float) for a in (tc, pc, omega))
+    out = np.empty((p.shape[0], tc.shape[0]))
+    _k.wilson_batch(pc, tc, omega, p, t, out)
+    return out
 
 
 def li_pseudocritical_temperature(tc, vc, z):
