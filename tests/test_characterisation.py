@@ -228,8 +228,8 @@ def test_lee_kesler_omega_matches_chemicals(tb, tbr, pc):
 
 
 def test_lee_kesler_omega_high_tbr_branch():
-    # Above Tb/Tc = 0.8 the Kesler-Lee (1976) form in Kw applies. Independent transcription here,
-    # in degR, of omega = -7.904 + 0.1352 Kw - 0.007465 Kw^2 + 8.359 Tbr + (1.408 - 0.01063 Kw)/Tbr.
+    # Above Tb/Tc = 0.8 the Kesler-Lee (1976) form in Kw applies. Independent re-implementation
+    # here, in degR, of omega = -7.904 + 0.1352 Kw - 0.007465 Kw^2 + 8.359 Tbr + (1.408 - 0.01063 Kw)/Tbr.
     tb, tc, sg = 800.0, 950.0, 0.95
     kw = (tb * 1.8) ** (1.0 / 3.0) / sg
     tbr = tb / tc
@@ -249,7 +249,7 @@ def test_chueh_prausnitz_exact_value():
 
 def test_katz_firoozabadi_table_is_smooth_and_near_constant_kw():
     # The generalised SCN table is (from memory) built at an almost constant Watson factor of about
-    # 12 (Whitson 1983); check the transcription: M and SG rise, and Kw stays in 11.7..12.6.
+    # 12 (Whitson 1983); check the typed-in table: M and SG rise, and Kw stays in 11.7..12.6.
     table = np.array(_KATZ_FIROOZABADI)
     n, mw, sg = table.T
     assert np.array_equal(n, np.arange(6, 46))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import chemicals  # reference: critical-property databases (test extra)
 import numpy as np
 import pytest
 
@@ -57,7 +58,6 @@ def test_required_components_present():
 def test_critical_constants_against_chemicals(name):
     # External reference: the `chemicals` package's critical-property and acentric-factor
     # databases. Tolerances: the sources differ by a few tenths of a percent between editions.
-    chemicals = pytest.importorskip("chemicals")  # in the test extra; never absent in CI
     comp = builtin_component(name)
     cas = CAS[name]
     assert comp.tc == pytest.approx(chemicals.Tc(cas), rel=3e-3)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import CoolProp.CoolProp as cp  # reference equations of state (test extra)
 import numpy as np
 import pytest
 
@@ -127,7 +128,6 @@ def test_pure_vapour_pressure_against_coolprop(name, coolprop_name, eos):
     # methane, Lemmon et al. for propane, butane, decane; Span & Wagner for CO2). Tolerance 3%
     # over Tr = 0.6-0.95: the accuracy usually quoted for PR and SRK vapour pressures of
     # non-polar fluids with the generalised alpha function (a common-practice figure).
-    cp = pytest.importorskip("CoolProp.CoolProp")
     mix = Mixture([name], eos=eos)
     # From Tr = 0.6, or just above the triple point where that is higher (CO2).
     tr_min = max(0.6, cp.PropsSI("Ttriple", coolprop_name) / mix.tc[0] + 0.01)
@@ -165,7 +165,6 @@ def test_volume_shift_improves_liquid_density(name, coolprop_name, t):
     # Reference: CoolProp saturated-liquid density. Peng-Robinson without a shift is known to
     # miss liquid densities by several percent; with the Peneloux shift the error must be
     # smaller and within 4%.
-    cp = pytest.importorskip("CoolProp.CoolProp")
     from gridflash.thermo import flash
 
     mix = Mixture([name], eos="PR78")

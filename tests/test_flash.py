@@ -3,6 +3,7 @@ reference-equation VLE, input validation."""
 
 from __future__ import annotations
 
+import CoolProp.CoolProp as cp  # reference equations of state (test extra)
 import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
@@ -183,7 +184,6 @@ def test_bubble_and_dew_pressure_against_gerg2008(pair, coolprop, z1, t):
     # PR with kij = 0 is a different model; the tolerance, 8% on bubble and dew pressure, is a
     # common-practice accuracy figure for untuned PR on light-hydrocarbon binaries. The edges
     # of our two-phase region are located by bisection on the flash's phase count.
-    cp = pytest.importorskip("CoolProp.CoolProp")
     a, b = coolprop.split("&")
     fluid = f"HEOS::{a}[{z1}]&{b}[{1 - z1}]"
     p_bub = cp.PropsSI("P", "T", t, "Q", 0, fluid)

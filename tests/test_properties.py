@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
+import CoolProp.CoolProp as cp  # reference values (test extra)
 import numpy as np
 import pytest
 
 from gridflash import Mixture, flash
 from gridflash.thermo import PhaseLabel, li_pseudocritical_temperature
-
-cp = pytest.importorskip("CoolProp.CoolProp")  # test extra; reference values below
 
 
 def _single(name, t, p):
