@@ -229,7 +229,8 @@ def test_lee_kesler_omega_matches_chemicals(tb, tbr, pc):
 
 def test_lee_kesler_omega_high_tbr_branch():
     # Above Tb/Tc = 0.8 the Kesler-Lee (1976) form in Kw applies. Independent re-implementation
-    # here, in degR, of omega = -7.904 + 0.1352 Kw - 0.007465 Kw^2 + 8.359 Tbr + (1.408 - 0.01063 Kw)/Tbr.
+    # here, in degR, of
+    # omega = -7.904 + 0.1352 Kw - 0.007465 Kw^2 + 8.359 Tbr + (1.408 - 0.01063 Kw)/Tbr.
     tb, tc, sg = 800.0, 950.0, 0.95
     kw = (tb * 1.8) ** (1.0 / 3.0) / sg
     tbr = tb / tc
