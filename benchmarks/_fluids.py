@@ -32,3 +32,52 @@ def grid(n_components: int, n_p: int, n_t: int, n_r: int):
     pp, tt, rr = np.meshgrid(p, t, r, indexing="ij")
     z = (1.0 - rr.ravel()[:, None]) * oil + rr.ravel()[:, None] * gas
     return pp.ravel(), tt.ravel(), z
+
+
+def config_text(
+    shape: tuple[int, int, int],
+    *,
+    pressure: tuple[float, float, str] = (1e6, 5e7, "Pa"),
+    temperature: tuple[float, float] = (290.0, 450.0),
+    output: str = "out.zarr",
+    run_extra: str = "",
+) -> str:
+    """A run config (TOML) of the invented 8-component oil/gas mixing-line grid.
+
+    ``shape`` is (pressures, temperatures, mixing ratios); ``run_extra`` is appended to [run].
+    """
+    names = "[" + ", ".join(f'"{n}"' for n in NAMES_8) + "]"
+    kij = ", ".join(f'"{a}-{b}" = {v}' for (a, b), v in KIJ_8.items())
+    oil = "[" + ", ".join(map(str, OIL_8)) + "]"
+    gas = "[" + ", ".join(map(str, GAS_8)) + "]"
+    p_start, p_stop, p_unit = pressure
+    return f"""\
+# Invented benchmark fluid (not field data).
+[fluid]
+components = {names}
+kij = {{ {kij} }}
+[streams.oil]
+mole_fractions = {oil}
+[streams.gas]
+mole_fractions = {gas}
+[pressure]
+unit = "{p_unit}"
+start = {p_start}
+stop = {p_stop}
+count = {shape[0]}
+[temperature]
+unit = "K"
+start = {temperature[0]}
+stop = {temperature[1]}
+count = {shape[1]}
+[composition]
+kind = "mixing"
+streams = ["oil", "gas"]
+start = 0.0
+stop = 1.0
+count = {shape[2]}
+[run]
+output = "{output}"
+sweep = "pressure"
+{run_extra}
+"""

@@ -31,44 +31,7 @@ from gridflash._config import load_config
 from gridflash._runner import run
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8  # noqa: E402 - invented benchmark fluid
-
-CONFIG = """\
-# Invented benchmark fluid (not field data).
-[fluid]
-components = {names}
-kij = {{ {kij} }}
-[streams.oil]
-mole_fractions = {oil}
-[streams.gas]
-mole_fractions = {gas}
-[pressure]
-unit = "bar"
-start = 20.0
-stop = 450.0
-count = {n_p}
-[temperature]
-unit = "K"
-start = 300.0
-stop = 440.0
-count = {n_t}
-[composition]
-kind = "mixing"
-streams = ["oil", "gas"]
-start = 0.0
-stop = 1.0
-count = {n_r}
-[run]
-output = "bench.zarr"
-scheduler = "threads"
-"""
-
-
-def _config_text(n_p: int, n_t: int, n_r: int) -> str:
-    kij = ", ".join(f'"{a}-{b}" = {v}' for (a, b), v in KIJ_8.items())
-    oil, gas = [float(x) for x in OIL_8], [float(x) for x in GAS_8]
-    return CONFIG.format(names=list(NAMES_8), kij=kij, oil=oil, gas=gas,
-                         n_p=n_p, n_t=n_t, n_r=n_r).replace("'", '"')
+from _fluids import GAS_8, OIL_8, config_text  # noqa: E402 - invented fluid
 
 
 def _best(fn, repeat: int) -> float:
@@ -90,11 +53,20 @@ def main() -> None:
 
     with tempfile.TemporaryDirectory() as folder:
         config = Path(folder) / "bench.toml"
-        config.write_text(_config_text(30, 12, 21))
+        config.write_text(
+            config_text(
+                (30, 12, 21),
+                pressure=(20.0, 450.0, "bar"),
+                temperature=(300.0, 440.0),
+                output="bench.zarr",
+            )
+        )
         start = time.perf_counter()
         summary = run(load_config(config))
-        print(f"table: {summary.cells_total:,} cells built in {time.perf_counter() - start:.1f} s"
-              f" ({summary.stats.two_phase:,} two-phase)")
+        print(
+            f"table: {summary.cells_total:,} cells built in {time.perf_counter() - start:.1f} s"
+            f" ({summary.stats.two_phase:,} two-phase)"
+        )
         table = gridflash.open_table(summary.output).load()
 
         rng = np.random.default_rng(2024)
@@ -138,8 +110,10 @@ def main() -> None:
         "lookup1": n_single / t_lookup1,
         "flash1": n_single / t_flash1,
     }
-    print(f"points: {n_points:,} random points inside the table, {flagged:,} "
-          f"({100.0 * flagged / n_points:.1f}%) next to a phase boundary")
+    print(
+        f"points: {n_points:,} random points inside the table, {flagged:,} "
+        f"({100.0 * flagged / n_points:.1f}%) next to a phase boundary"
+    )
     print("batch (one call for all points):")
     print(f"  lookup (interpolation + flags)     {rate['lookup']:>12,.0f} points/s")
     print(f"  lookup, refine=True                {rate['lookup_refine']:>12,.0f} points/s")

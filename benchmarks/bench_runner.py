@@ -29,58 +29,16 @@ from pathlib import Path
 
 import numpy as np
 import psutil
-from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8  # invented benchmark fluid (not field data)
+from _fluids import GAS_8, KIJ_8, NAMES_8, OIL_8, config_text  # invented fluid (not field data)
 
 import gridflash
 
 ROOT = Path(__file__).resolve().parents[1]
 
-CONFIG = """\
-# Invented benchmark fluid (not field data).
-[fluid]
-components = {names}
-kij = {{ {kij} }}
-[streams.oil]
-mole_fractions = {oil}
-[streams.gas]
-mole_fractions = {gas}
-[pressure]
-unit = "Pa"
-start = 1e6
-stop = 5e7
-count = {n_p}
-[temperature]
-unit = "K"
-start = 290.0
-stop = 450.0
-count = {n_t}
-[composition]
-kind = "mixing"
-streams = ["oil", "gas"]
-start = 0.0
-stop = 1.0
-count = {n_r}
-[run]
-output = "out.zarr"
-scheduler = "processes"
-sweep = "pressure"
-{chunks}
-"""
-
 
 def write_config(folder: Path, shape: tuple[int, int, int], chunks: str) -> Path:
-    text = CONFIG.format(
-        names="[" + ", ".join(f'"{n}"' for n in NAMES_8) + "]",
-        kij=", ".join(f'"{a}-{b}" = {v}' for (a, b), v in KIJ_8.items()),
-        oil="[" + ", ".join(map(str, OIL_8)) + "]",
-        gas="[" + ", ".join(map(str, GAS_8)) + "]",
-        n_p=shape[0],
-        n_t=shape[1],
-        n_r=shape[2],
-        chunks=chunks,
-    )
     path = folder / "bench.toml"
-    path.write_text(text)
+    path.write_text(config_text(shape, run_extra=chunks))
     return path
 
 
