@@ -1409,46 +1409,6 @@ def stability_batch(
         trial_tm[1, c] = tt[1]
 
 
-@njit(**_JIT)
-def split_batch(
-    z,
-    sqrt_a,
-    b_i,
-    omk,
-    d1,
-    d2,
-    ln_k0,
-    warm,
-    newton_only,
-    robust,
-    status,
-    beta,
-    x,
-    y,
-    ln_k,
-    z_l,
-    z_v,
-    iters,
-    residual,
-    balance,
-    gibbs,
-):
-    nc = z.shape[1]
-    present = np.empty(nc, dtype=np.bool_)
-    for c in range(z.shape[0]):
-        for i in range(nc):
-            present[i] = z[c, i] > 0.0
-        if newton_only:
-            out = newton_cell(
-                z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], robust, x[c], y[c], ln_k[c]
-            )
-        else:
-            out = split_cell(
-                z[c], present, sqrt_a[c], b_i[c], omk, d1, d2, ln_k0[c], warm, x[c], y[c], ln_k[c]
-            )
-        status[c], beta[c], z_l[c], z_v[c], iters[c], residual[c], balance[c], gibbs[c] = out
-
-
 # --------------------------------------------------------------------------------------------
 # Saturation point (bubble / dew) by Newton's method on the incipient-phase equations
 # --------------------------------------------------------------------------------------------
