@@ -85,6 +85,18 @@ GIBBS_TOL = 1e-10
 _NAN = math.nan
 _INF = math.inf
 
+# Scratch sizes (rows of nc, and (nc, nc) matrices) of the per-cell functions, which take their
+# work arrays from the caller so that a batch allocates them once, not once per cell.
+DLNPHI_WS = 7
+TRIAL_WS = 12 + DLNPHI_WS
+TRIAL_WM = 2
+STABILITY_WS = 3 + TRIAL_WS
+NEWTON_WS = 13 + DLNPHI_WS
+NEWTON_WM = 3
+SPLIT_WS = 13 + max(2, NEWTON_WS)
+FLASH_WS = max(STABILITY_WS, SPLIT_WS)
+FLASH_WM = max(TRIAL_WM, NEWTON_WM)
+
 
 # --------------------------------------------------------------------------------------------
 # EOS
@@ -209,8 +221,11 @@ def phase_cell(x, sqrt_a, b_i, omk, d1, d2, root, ln_phi, psi):
 
 
 @njit(**_JIT)
-def dlnphi_cell(z, a, b, psi, sqrt_a, b_i, omk, d1, d2, out):
-    """``n d ln phi_i / d n_j`` at constant T, P into ``out`` (nc, nc)."""
+def dlnphi_cell(z, a, b, psi, sqrt_a, b_i, omk, d1, d2, out, ws):
+    """``n d ln phi_i / d n_j`` at constant T, P into ``out`` (nc, nc).
+
+    ``ws``: scratch of at least DLNPHI_WS rows of nc.
+    """
     nc = psi.shape[0]
     u = d1 + d2
     w = d1 * d2
@@ -226,13 +241,13 @@ def dlnphi_cell(z, a, b, psi, sqrt_a, b_i, omk, d1, d2, out):
     log_term = math.log((z + d1 * b) / (z + d2 * b))
     q = a / b
     inv_delta = 1.0 / (d1 - d2)
-    na = np.empty(nc)
-    nb = np.empty(nc)
-    nz = np.empty(nc)
-    br = np.empty(nc)
-    s = np.empty(nc)
-    nq = np.empty(nc)
-    nl = np.empty(nc)
+    na = ws[0]
+    nb = ws[1]
+    nz = ws[2]
+    br = ws[3]
+    s = ws[4]
+    nq = ws[5]
+    nl = ws[6]
     for j in range(nc):
         na[j] = 2.0 * psi[j] - 2.0 * a
         nb[j] = b_i[j] - b
@@ -315,8 +330,11 @@ def _rr_g(beta, k, z):
 
 
 @njit(**_JIT)
-def rachford_rice_cell(k, z, has_limits, lim_lo, lim_hi, tol, maxiter):
-    """Vapour fraction of one cell; returns (beta, status, iterations, residual)."""
+def rachford_rice_cell(k, z, has_limits, lim_lo, lim_hi, tol, maxiter, c):
+    """Vapour fraction of one cell; returns (beta, status, iterations, residual).
+
+    ``c`` (nc,) is scratch.
+    """
     nc = k.shape[0]
     kmax = -_INF
     kmin = _INF
@@ -362,7 +380,6 @@ def rachford_rice_cell(k, z, has_limits, lim_lo, lim_hi, tol, maxiter):
     upper = g_mid > 0.0
     base = hi if upper else lo
     sign = -1.0 if upper else 1.0
-    c = np.empty(nc)
     for i in range(nc):
         c[i] = 1.0 + base * (k[i] - 1.0)
         if upper and at_hi_exact and k[i] == kmin:
@@ -414,7 +431,7 @@ def rachford_rice_cell(k, z, has_limits, lim_lo, lim_hi, tol, maxiter):
 
 
 @njit(**_JIT)
-def _gdem(x_new, x_cur, x_prev, present, out):
+def _gdem(x_new, x_cur, x_prev, present, everywhere, out):
     num = 0.0
     den = 0.0
     for i in range(x_new.shape[0]):
@@ -428,7 +445,7 @@ def _gdem(x_new, x_cur, x_prev, present, out):
         if math.isfinite(lam) and 0.0 < lam < 0.95:
             factor = lam / (1.0 - lam)
     for i in range(x_new.shape[0]):
-        if present[i]:
+        if everywhere or present[i]:
             out[i] = x_new[i] + factor * (x_new[i] - x_cur[i])
         else:
             out[i] = x_new[i]
@@ -436,29 +453,32 @@ def _gdem(x_new, x_cur, x_prev, present, out):
 
 @njit(**_JIT)
 def stability_trial(
-    z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, maxiter, early_exit, ks_out
+    z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, maxiter, early_exit, ks_out, ws, wm
 ):
     """Iterate one trial phase (ln Ks = ln W - ln z) to a conclusion.
 
-    Returns (outcome, tm, iterations); the final ln Ks is written into ``ks_out``.
+    Returns (outcome, tm, iterations); the final ln Ks is written into ``ks_out``. ``ws`` and
+    ``wm`` are scratch of TRIAL_WS rows of nc and TRIAL_WM (nc, nc) matrices.
     """
     nc = z.shape[0]
-    ks = np.empty(nc)
-    acc_ks = np.zeros(nc)
-    prev1 = np.zeros(nc)
-    ks_new = np.empty(nc)
-    r = np.empty(nc)
-    w_moles = np.empty(nc)
-    w = np.empty(nc)
-    ln_phi = np.empty(nc)
-    psi = np.empty(nc)
-    step = np.empty(nc)
-    dphi = np.empty((nc, nc))
-    h = np.empty((nc, nc))
-    rhs = np.empty(nc)
-    d_alpha = np.empty(nc)
+    ks = ws[0]
+    acc_ks = ws[1]
+    prev1 = ws[2]
+    ks_new = ws[3]
+    r = ws[4]
+    w_moles = ws[5]
+    w = ws[6]
+    ln_phi = ws[7]
+    psi = ws[8]
+    step = ws[9]
+    rhs = ws[10]
+    d_alpha = ws[11]
+    dphi = wm[0]
+    h = wm[1]
     for i in range(nc):
         ks[i] = ks0[i] if present[i] else 0.0
+        acc_ks[i] = 0.0
+        prev1[i] = 0.0
     acc_tm = _INF
     tm_out = _NAN
     halvings = 0
@@ -521,7 +541,7 @@ def stability_trial(
         n_accepted += 1
         if n_accepted >= STAB_NEWTON_AFTER:
             # Newton step in alpha = 2 sqrt(W) (Michelsen 1982).
-            dlnphi_cell(zph, aph, bph, psi, sqrt_a, b_i, omk, d1, d2, dphi)
+            dlnphi_cell(zph, aph, bph, psi, sqrt_a, b_i, omk, d1, d2, dphi, ws[12:])
             for i in range(nc):
                 swi = math.sqrt(w_moles[i])
                 rhs[i] = -swi * r[i]
@@ -546,7 +566,7 @@ def stability_trial(
                 for i in range(nc):
                     step[i] = ks[i] - r[i]
         elif n_accepted % STAB_GDEM_EVERY == 0:
-            _gdem(ks_new, ks, prev1, present, step)
+            _gdem(ks_new, ks, prev1, present, False, step)
         else:
             for i in range(nc):
                 step[i] = ks_new[i]
@@ -575,23 +595,55 @@ def stability_cell(
     trials,
     trial_tm,
     seed,
+    ws,
+    wm,
 ):
     """Both Wilson-started trials of one cell.
 
     Returns (stable, tpd, iterations, conclusive, root_failure); fills ``trials`` (2, nc),
     ``trial_tm`` (2,) and ``seed`` (nc,) (the split's initial ln K; NaN where stable).
+    ``ws`` and ``wm`` are scratch of STABILITY_WS rows of nc and TRIAL_WM (nc, nc) matrices.
     """
     nc = z.shape[0]
-    ks_v = np.empty(nc)
-    ks_l = np.empty(nc)
-    neg = np.empty(nc)
+    ks_v = ws[0]
+    ks_l = ws[1]
+    neg = ws[2]
+    tws = ws[3:]
     for i in range(nc):
         neg[i] = -ln_kw[i]
     out_v, tm_v, it_v = stability_trial(
-        z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, tol, maxiter, early_exit, ks_v
+        z,
+        present,
+        ln_phi_z,
+        sqrt_a,
+        b_i,
+        omk,
+        d1,
+        d2,
+        ln_kw,
+        tol,
+        maxiter,
+        early_exit,
+        ks_v,
+        tws,
+        wm,
     )
     out_l, tm_l, it_l = stability_trial(
-        z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, neg, tol, maxiter, early_exit, ks_l
+        z,
+        present,
+        ln_phi_z,
+        sqrt_a,
+        b_i,
+        omk,
+        d1,
+        d2,
+        neg,
+        tol,
+        maxiter,
+        early_exit,
+        ks_l,
+        tws,
+        wm,
     )
     unstable_v = out_v == UNSTABLE
     unstable_l = out_l == UNSTABLE
@@ -688,13 +740,13 @@ def _evaluate(
 
 
 @njit(**_JIT)
-def _from_lnk(z, present, ln_k, x, y):
-    """Rachford-Rice split for ln K; returns (beta, rr_ok)."""
+def _from_lnk(z, present, ln_k, x, y, ws):
+    """Rachford-Rice split for ln K; returns (beta, rr_ok). ``ws``: 2 rows of scratch."""
     nc = z.shape[0]
-    k = np.empty(nc)
+    k = ws[0]
     for i in range(nc):
         k[i] = math.exp(ln_k[i])
-    beta, st, _, _ = rachford_rice_cell(k, z, False, 0.0, 1.0, RR_TOL, RR_MAXITER)
+    beta, st, _, _ = rachford_rice_cell(k, z, False, 0.0, 1.0, RR_TOL, RR_MAXITER, ws[1])
     if st == RR_ALL_K_BELOW_ONE:
         beta = 0.0
     elif st == RR_ALL_K_ABOVE_ONE:
@@ -717,11 +769,11 @@ def _from_lnk(z, present, ln_k, x, y):
 
 @njit(**_JIT)
 def _evaluate_lnk(
-    z, present, lnk, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v, lnk_next
+    z, present, lnk, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v, lnk_next, ws
 ):
     """Rachford-Rice split for ln K, then the EOS; returns (beta, inside, z_l, z_v, residual,
     gibbs), ``inside`` meaning Rachford-Rice converged with 0 < beta < 1."""
-    beta, rr_ok = _from_lnk(z, present, lnk, x, y)
+    beta, rr_ok = _from_lnk(z, present, lnk, x, y, ws)
     zl, zv, res, gibbs, _, _, _, _ = _evaluate(
         z,
         present,
@@ -766,24 +818,31 @@ def _balance(z, beta, x, y):
 
 
 @njit(**_JIT)
-def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_lnk):
+def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_lnk, ws, wm):
     """Successive substitution with GDEM, then Newton. Outputs compositions into o_x, o_y, o_lnk.
 
-    Returns (status, beta, z_l, z_v, iterations, residual, balance, gibbs).
+    Returns (status, beta, z_l, z_v, iterations, residual, balance, gibbs). ``ws`` and ``wm``
+    are scratch of SPLIT_WS rows of nc and NEWTON_WM (nc, nc) matrices.
     """
     nc = z.shape[0]
-    lnk = ln_k0.copy()
-    prev = np.zeros(nc)
-    plain_next = np.zeros(nc)
-    nxt = np.empty(nc)
-    acc = np.empty(nc)
-    x = np.empty(nc)
-    y = np.empty(nc)
-    lnphi_l = np.empty(nc)
-    lnphi_v = np.empty(nc)
-    psi_l = np.empty(nc)
-    psi_v = np.empty(nc)
-    lnk_next = np.empty(nc)
+    lnk = ws[0]
+    prev = ws[1]
+    plain_next = ws[2]
+    nxt = ws[3]
+    acc = ws[4]
+    x = ws[5]
+    y = ws[6]
+    lnphi_l = ws[7]
+    lnphi_v = ws[8]
+    psi_l = ws[9]
+    psi_v = ws[10]
+    lnk_next = ws[11]
+    v0 = ws[12]
+    sub = ws[13:]
+    for i in range(nc):
+        lnk[i] = ln_k0[i]
+        prev[i] = 0.0
+        plain_next[i] = 0.0
     gibbs_prev = _INF
     accelerated = False
     status = MAX_ITERATIONS
@@ -818,6 +877,7 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
             psi_l,
             psi_v,
             lnk_next,
+            sub,
         )
         if accelerated and inside and gibbs > gibbs_prev + 1e-12 * abs(gibbs_prev):
             for i in range(nc):
@@ -838,6 +898,7 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
                 psi_l,
                 psi_v,
                 lnk_next,
+                sub,
             )
         accelerated = False
         finite = math.isfinite(res) and math.isfinite(beta)
@@ -890,7 +951,7 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
         for i in range(nc):
             nxt[i] = lnk_next[i]
         if it % SPLIT_GDEM_EVERY == 0:
-            _gdem(nxt, lnk, prev, np.ones(nc, dtype=np.bool_), acc)
+            _gdem(nxt, lnk, prev, present, True, acc)
             changed = False
             for i in range(nc):
                 if acc[i] != nxt[i]:
@@ -906,11 +967,10 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
             prev[i] = lnk[i]
             lnk[i] = nxt[i]
     if to_newton:
-        v0 = np.empty(nc)
         for i in range(nc):
             v0[i] = beta_o * o_y[i] if present[i] else 0.0
         status, beta_o, zl_o, zv_o, n_it, res_o, bal_o, g_o = newton_cell(
-            z, present, sqrt_a, b_i, omk, d1, d2, v0, False, o_x, o_y, o_lnk
+            z, present, sqrt_a, b_i, omk, d1, d2, v0, False, o_x, o_y, o_lnk, sub, wm
         )
         iters += n_it
     return status, beta_o, zl_o, zv_o, iters, res_o, bal_o, g_o
@@ -953,30 +1013,34 @@ def _evaluate_v(
 
 
 @njit(**_JIT)
-def newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, v0, robust, o_x, o_y, o_lnk):
+def newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, v0, robust, o_x, o_y, o_lnk, ws, wm):
     """Newton minimisation of the split's Gibbs energy in vapour mole numbers.
 
-    Returns (status, beta, z_l, z_v, iterations, residual, balance, gibbs).
+    Returns (status, beta, z_l, z_v, iterations, residual, balance, gibbs). ``ws`` and ``wm``
+    are scratch of NEWTON_WS rows of nc and NEWTON_WM (nc, nc) matrices.
     """
     nc = z.shape[0]
-    v = np.empty(nc)
+    v = ws[0]
+    acc_v = ws[1]
+    step = ws[2]
+    x = ws[3]
+    y = ws[4]
+    lnphi_l = ws[5]
+    lnphi_v = ws[6]
+    psi_l = ws[7]
+    psi_v = ws[8]
+    lnk_next = ws[9]
+    rhs = ws[10]
+    sol = ws[11]
+    scale = ws[12]
+    dws = ws[13:]
+    dl = wm[0]
+    dv = wm[1]
+    jac = wm[2]
     for i in range(nc):
         v[i] = v0[i] if present[i] else 0.0
-    acc_v = v.copy()
-    step = np.zeros(nc)
-    x = np.empty(nc)
-    y = np.empty(nc)
-    lnphi_l = np.empty(nc)
-    lnphi_v = np.empty(nc)
-    psi_l = np.empty(nc)
-    psi_v = np.empty(nc)
-    lnk_next = np.empty(nc)
-    dl = np.empty((nc, nc))
-    dv = np.empty((nc, nc))
-    jac = np.empty((nc, nc))
-    rhs = np.empty(nc)
-    sol = np.empty(nc)
-    scale = np.empty(nc)
+        acc_v[i] = v[i]
+        step[i] = 0.0
     acc_g = _INF
     tau = 1.0
     halvings = 0
@@ -1031,8 +1095,8 @@ def newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, v0, robust, o_x, o_y, o_ln
             break
         # Newton direction on the symmetrically scaled Hessian of G.
         ls = 1.0 - vs
-        dlnphi_cell(zl, al, bl, psi_l, sqrt_a, b_i, omk, d1, d2, dl)
-        dlnphi_cell(zv, av, bv, psi_v, sqrt_a, b_i, omk, d1, d2, dv)
+        dlnphi_cell(zl, al, bl, psi_l, sqrt_a, b_i, omk, d1, d2, dl, dws)
+        dlnphi_cell(zv, av, bv, psi_v, sqrt_a, b_i, omk, d1, d2, dv, dws)
         for i in range(nc):
             if present[i]:
                 scale[i] = math.sqrt(v[i] * (z[i] - v[i]) / z[i])
@@ -1092,8 +1156,13 @@ _DESCENT_FRACTIONS = (0.01, 0.05, 0.2, 0.4, 0.6, 0.8, 0.95)
 
 
 @njit(**_JIT)
-def _gibbs_descent_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o_x, o_y, o_lnk):
-    """Robust split from the most negative stationary point of tm (see _flash._gibbs_descent)."""
+def _gibbs_descent_cell(
+    z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o_x, o_y, o_lnk, ws, wm
+):
+    """Robust split from the most negative stationary point of tm (see _flash._gibbs_descent).
+
+    ``ws`` and ``wm``: scratch of FLASH_WS rows of nc and FLASH_WM (nc, nc) matrices.
+    """
     nc = z.shape[0]
     trials = np.empty((2, nc))
     trial_tm = np.empty(2)
@@ -1114,6 +1183,8 @@ def _gibbs_descent_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o
         trials,
         trial_tm,
         seed,
+        ws,
+        wm,
     )
     tv = trial_tm[0] if math.isfinite(trial_tm[0]) else _INF
     tl = trial_tm[1] if math.isfinite(trial_tm[1]) else _INF
@@ -1148,7 +1219,7 @@ def _gibbs_descent_cell(z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, o
                 best_g = g
             first = False
     status, beta, zl, zv, n_it, res, bal, gibbs = newton_cell(
-        z, present, sqrt_a, b_i, omk, d1, d2, best_v, True, o_x, o_y, o_lnk
+        z, present, sqrt_a, b_i, omk, d1, d2, best_v, True, o_x, o_y, o_lnk, ws, wm
     )
     return status, beta, zl, zv, n_it + st_it, res, bal, gibbs
 
@@ -1199,6 +1270,8 @@ def flash_batch(
     sx = np.empty(nc)
     sy = np.empty(nc)
     slnk = np.empty(nc)
+    ws = np.empty((FLASH_WS, nc))
+    wm = np.empty((FLASH_WM, nc, nc))
     for c in range(n):
         zc = z[c]
         reduced_cell(ac, m, b, tc, p[c], t[c], sqrt_a, b_i)
@@ -1238,7 +1311,7 @@ def flash_batch(
                 for i in range(nc):
                     lnk0[i] = math.log(k0[c, i])
                 st, bt, zl, zv, it, res, bal, g = split_cell(
-                    zc, present, sqrt_a, b_i, omk, d1, d2, lnk0, True, sx, sy, slnk
+                    zc, present, sqrt_a, b_i, omk, d1, d2, lnk0, True, sx, sy, slnk, ws, wm
                 )
                 iterations[c] += it
                 if st == CONVERGED and 0.0 < bt < 1.0:
@@ -1262,6 +1335,8 @@ def flash_batch(
                 trials,
                 trial_tm,
                 seed,
+                ws,
+                wm,
             )
             stab_iters[c] = st_it
             iterations[c] += st_it
@@ -1271,7 +1346,7 @@ def flash_batch(
                     status[c] = ROOT_FAILURE if root_failure else MAX_ITERATIONS
                 continue
             st, bt, zl, zv, it, res, bal, g = split_cell(
-                zc, present, sqrt_a, b_i, omk, d1, d2, seed, False, sx, sy, slnk
+                zc, present, sqrt_a, b_i, omk, d1, d2, seed, False, sx, sy, slnk, ws, wm
             )
             iterations[c] += it
             if not (st == CONVERGED and 0.0 < bt < 1.0):
@@ -1279,7 +1354,7 @@ def flash_batch(
                 fy = np.empty(nc)
                 flnk = np.empty(nc)
                 st2, bt2, zl2, zv2, it2, res2, bal2, g2 = _gibbs_descent_cell(
-                    zc, present, lnphi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, fx, fy, flnk
+                    zc, present, lnphi_z, sqrt_a, b_i, omk, d1, d2, ln_kw, fx, fy, flnk, ws, wm
                 )
                 iterations[c] += it2
                 if st2 == CONVERGED and 0.0 < bt2 < 1.0:
@@ -1342,17 +1417,19 @@ def phase_batch(x, sqrt_a, b_i, omk, d1, d2, root, z, a, b, ln_phi, psi):
 
 @njit(**_JIT)
 def dlnphi_batch(z, a, b, psi, sqrt_a, b_i, omk, d1, d2, out):
+    ws = np.empty((DLNPHI_WS, psi.shape[1]))
     for c in range(z.shape[0]):
-        dlnphi_cell(z[c], a[c], b[c], psi[c], sqrt_a[c], b_i[c], omk, d1, d2, out[c])
+        dlnphi_cell(z[c], a[c], b[c], psi[c], sqrt_a[c], b_i[c], omk, d1, d2, out[c], ws)
 
 
 @njit(**_JIT)
 def rachford_rice_batch(
     k, z, has_limits, lim_lo, lim_hi, tol, maxiter, beta, status, iters, residual
 ):
+    work = np.empty(k.shape[1])
     for c in range(k.shape[0]):
         beta[c], status[c], iters[c], residual[c] = rachford_rice_cell(
-            k[c], z[c], has_limits, lim_lo, lim_hi, tol, maxiter
+            k[c], z[c], has_limits, lim_lo, lim_hi, tol, maxiter, work
         )
 
 
@@ -1382,6 +1459,8 @@ def stability_batch(
     present = np.empty(nc, dtype=np.bool_)
     tr = np.empty((2, nc))
     tt = np.empty(2)
+    ws = np.empty((STABILITY_WS, nc))
+    wm = np.empty((TRIAL_WM, nc, nc))
     for c in range(z.shape[0]):
         for i in range(nc):
             present[i] = z[c, i] > 0.0
@@ -1401,6 +1480,8 @@ def stability_batch(
             tr,
             tt,
             seed[c],
+            ws,
+            wm,
         )
         for i in range(nc):
             trials[0, c, i] = tr[0, i]
@@ -1471,6 +1552,7 @@ def saturation_newton_cell(eos, z, t, lnp0, u0, u_out):
     f2 = np.empty(n)
     jac = np.empty((n, n))
     dphi = np.empty((nc, nc))
+    dws = np.empty((DLNPHI_WS, nc))
     rhs = np.empty(n)
     step = np.empty(n)
     lnp = lnp0
@@ -1491,7 +1573,7 @@ def saturation_newton_cell(eos, z, t, lnp0, u0, u_out):
         if norm < SAT_TOL:
             converged = True
             break
-        dlnphi_cell(zw, aw, bw, ws[_PSI_W], ws[_SQRT_A], ws[_B_I], omk, d1, d2, dphi)
+        dlnphi_cell(zw, aw, bw, ws[_PSI_W], ws[_SQRT_A], ws[_B_I], omk, d1, d2, dphi, dws)
         for i in range(nc):
             for j in range(nc):
                 if present[i] and present[j]:
