@@ -6,7 +6,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from . import _kernels as _k
-from ._cubic import R
+from . import _property_kernels as _pk
 from ._result import PhaseLabel, PhaseProperties
 
 __all__ = [
@@ -17,13 +17,6 @@ __all__ = [
     "stiel_thodos_viscosity",
     "wilson_ln_k",
 ]
-
-_ATM = 101325.0  # Pa, exact
-
-
-def _dot(x, v):
-    """Row-wise ``x @ v`` whose rounding does not depend on the number of rows (unlike BLAS)."""
-    return np.einsum("ij,j->i", x, v)
 
 
 def wilson_ln_k(tc, pc, omega, pressure, temperature):
@@ -63,26 +56,19 @@ def single_phase_label(tc, vc, z, temperature) -> NDArray[np.int8]:
     ).astype(np.int8)
 
 
-def _xi(tc, pc, mw):
-    """Viscosity-reducing parameter ``Tc^(1/6) / (M^(1/2) Pc^(2/3))`` with Tc in K, Pc in atm."""
-    return tc ** (1.0 / 6.0) / (np.sqrt(mw) * (pc / _ATM) ** (2.0 / 3.0))
-
-
 def stiel_thodos_viscosity(tc, pc, mw, temperature):
     """Low-pressure gas viscosity of each component, Pa s, shape (n, nc).
 
     Stiel, L. I. and Thodos, G. (1961), The viscosity of nonpolar gases at normal pressures,
     AIChE J. 7, 611-615: ``mu xi = 34e-5 Tr^0.94`` (Tr <= 1.5) and
-    ``mu xi = 17.78e-5 (4.58 Tr - 1.67)^(5/8)`` (Tr > 1.5), mu in cP.
+    ``mu xi = 17.78e-5 (4.58 Tr - 1.67)^(5/8)`` (Tr > 1.5), mu in cP, with
+    ``xi = Tc^(1/6) / (M^(1/2) Pc^(2/3))`` (Tc in K, Pc in atm).
     """
-    t = np.asarray(temperature, dtype=float)[:, None]
-    tr = t / tc
-    xi = _xi(tc, pc, mw)
-    with np.errstate(invalid="ignore"):
-        mu_cp = (
-            np.where(tr <= 1.5, 34e-5 * tr**0.94, 17.78e-5 * np.abs(4.58 * tr - 1.67) ** 0.625) / xi
-        )
-    return mu_cp * 1e-3
+    t = np.ascontiguousarray(temperature, dtype=float).reshape(-1)
+    tc, pc, mw = (np.ascontiguousarray(a, dtype=float) for a in (tc, pc, mw))
+    out = np.empty((t.shape[0], tc.shape[0]))
+    _pk.stiel_thodos_batch(tc, pc, mw, t, out)
+    return out
 
 
 def lbc_viscosity(tc, pc, mw, vc, temperature, x, molar_density):
@@ -106,19 +92,13 @@ def lbc_viscosity(tc, pc, mw, vc, temperature, x, molar_density):
     ``mu*`` follows Herning & Zipperer (1936): ``sum x_i mu_i sqrt(M_i) / sum x_i sqrt(M_i)``
     with ``mu_i`` from :func:`stiel_thodos_viscosity`.
     """
-    mu_i = stiel_thodos_viscosity(tc, pc, mw, temperature) * 1e3  # cP
-    sq = np.sqrt(mw)
-    mu_star = (x * mu_i * sq).sum(axis=1) / (x * sq).sum(axis=1)
-    tpc = _dot(x, tc)
-    ppc = _dot(x, pc)
-    mwm = _dot(x, mw)
-    xi = _xi(tpc, ppc, mwm)
-    rho_r = molar_density * _dot(x, vc)
-    poly = 0.1023 + rho_r * (
-        0.023364 + rho_r * (0.058533 + rho_r * (-0.040758 + rho_r * 0.0093324))
-    )
-    mu = mu_star + (poly**4 - 1e-4) / xi
-    return mu * 1e-3
+    x = np.ascontiguousarray(x, dtype=float)
+    t = np.ascontiguousarray(np.broadcast_to(temperature, x.shape[:1]), dtype=float)
+    rho = np.ascontiguousarray(np.broadcast_to(molar_density, x.shape[:1]), dtype=float)
+    tc, pc, mw, vc = (np.ascontiguousarray(a, dtype=float) for a in (tc, pc, mw, vc))
+    out = np.empty(x.shape[0])
+    _pk.lbc_batch(tc, pc, mw, vc, t, x, rho, out)
+    return out
 
 
 def phase_properties(mixture, pressure, temperature, x, z_factor) -> PhaseProperties:
@@ -128,13 +108,29 @@ def phase_properties(mixture, pressure, temperature, x, z_factor) -> PhaseProper
     (Peneloux, Rauzy & Freze, Fluid Phase Equilib. 8 (1982) 7); the shift does not enter phase
     equilibrium.
     """
-    p = np.asarray(pressure, dtype=float)
-    t = np.asarray(temperature, dtype=float)
-    v = z_factor * R * t / p - _dot(x, mixture.volume_shift)
-    molar_density = 1.0 / v
-    mw = _dot(x, mixture.mw)
-    mass_density = mw * 1e-3 * molar_density
-    mu = lbc_viscosity(mixture.tc, mixture.pc, mixture.mw, mixture.vc, t, x, molar_density)
+    x = np.ascontiguousarray(x, dtype=float)
+    n = x.shape[0]
+    p, t, z_factor = (
+        np.ascontiguousarray(np.broadcast_to(a, (n,)), dtype=float)
+        for a in (pressure, temperature, z_factor)
+    )
+    v, molar_density, mass_density, mw, mu = (np.empty(n) for _ in range(5))
+    _pk.properties_batch(
+        mixture.tc,
+        mixture.pc,
+        mixture.mw,
+        mixture.vc,
+        mixture.volume_shift,
+        p,
+        t,
+        x,
+        z_factor,
+        v,
+        molar_density,
+        mass_density,
+        mw,
+        mu,
+    )
     return PhaseProperties(
         z_factor=z_factor,
         molar_volume=v,
