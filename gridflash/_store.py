@@ -72,7 +72,10 @@ STORE_FORMAT = "gridflash-store-1"
 #: Name of the per-block completion array.
 BLOCK_COMPLETE = "block_complete"
 
-_COMPRESSORS = (BloscCodec(cname="zstd", clevel=3, shuffle="shuffle"),)
+# LZ4 with byte shuffle: on flash tables it compresses within 2% of zstd level 3 (4.0x vs 4.1x
+# on the benchmark grid) at a quarter of the compression time, which otherwise takes a worker's
+# core away from flashing; it also decompresses faster for readers.
+_COMPRESSORS = (BloscCodec(cname="lz4", clevel=5, shuffle="shuffle"),)
 # Zarr's own concurrency, limited because several tasks may write at once in one process.
 _ZARR_CONFIG = {"async.concurrency": 4, "threading.max_workers": 4}
 
