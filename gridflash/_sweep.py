@@ -1,7 +1,7 @@
 """Flash every cell of one grid block, slab by slab along the sweep dimension, with warm starts.
 
-Pure numpy on top of :func:`gridflash.flash`; no dask, no files. The runner calls
-:func:`sweep_block` once per task block.
+Numpy around the thermo layer's :func:`~gridflash.thermo._flash.flash_slabs`; no dask, no
+files. The runner calls :func:`sweep_block` once per task block.
 """
 
 from __future__ import annotations
@@ -12,7 +12,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .thermo import FlashResult, Mixture, flash
+from .thermo import FlashResult, Mixture
+from .thermo._flash import flash_slabs
 
 __all__ = [
     "BLOCK_FIELDS",
@@ -35,9 +36,18 @@ CELL_FIELDS: tuple[str, ...] = (
     "material_balance",
     "phase_label",
     "tpd",
-    *(f"{phase}.{prop}" for phase in ("liquid", "vapour") for prop in (
-        "z_factor", "molar_volume", "molar_density", "mass_density", "molar_mass", "viscosity"
-    )),
+    *(
+        f"{phase}.{prop}"
+        for phase in ("liquid", "vapour")
+        for prop in (
+            "z_factor",
+            "molar_volume",
+            "molar_density",
+            "mass_density",
+            "molar_mass",
+            "viscosity",
+        )
+    ),
     "warm_start",
 )
 #: Per-cell, per-component fields.
@@ -107,9 +117,9 @@ def sweep_block(
         The axis swept slab by slab.
     warm_start : bool
         If True, each slab after the first is started from the previous slab's K-values where the
-        neighbouring cell converged to two phases (other rows are NaN, i.e. started cold, and
-        :func:`gridflash.flash` falls back to a full stability test where a warm split does not
-        give a two-phase answer). If False every cell is started cold.
+        neighbouring cell converged to two phases (other cells are started cold, and a cell
+        whose warm split does not give a two-phase answer gets the full stability test, see
+        :func:`gridflash.thermo._flash.flash_slabs`). If False every cell is started cold.
 
     Returns
     -------
@@ -123,23 +133,23 @@ def sweep_block(
             f"block inputs have shapes {pressure.shape} and {z.shape}, expected ({n_cells},) "
             f"and ({n_cells}, {nc}) for a block of shape {shape}"
         )
-    flat: dict[str, np.ndarray] = {}
-    slabs = slab_indices(shape, sweep_axis)
-    previous_k: np.ndarray | None = None
-    for cells in slabs:
-        k_init = previous_k if warm_start else None
-        offered = np.zeros(cells.size, dtype=bool)
-        if k_init is not None:
-            offered = np.all(np.isfinite(k_init), axis=1)
-            if not offered.any():
-                k_init = None
-        result = flash(mixture, pressure[cells], temperature[cells], z[cells], k_init=k_init)
-        _scatter(flat, result, offered, cells, n_cells, nc)
-        good = (result.phase_count == 2) & result.converged
-        previous_k = np.where(good[:, None], result.K, np.nan)
-    fields = {
-        key: value.reshape(shape + value.shape[1:]) for key, value in flat.items()
-    }
+    # Cells in sweep-major order: slab after slab (the identity when the sweep axis is first).
+    order = slab_indices(shape, sweep_axis)
+    slab_cells = order.shape[1]
+    order = order.ravel()
+    back = None if np.array_equal(order, np.arange(n_cells)) else np.argsort(order)
+    if back is not None:
+        pressure, temperature, z = pressure[order], temperature[order], z[order]
+    result = flash_slabs(mixture, pressure, temperature, z, slab_cells, warm_start=warm_start)
+    offered = np.zeros(n_cells, dtype=bool)
+    if warm_start:
+        offered[slab_cells:] = ((result.phase_count == 2) & result.converged)[:-slab_cells]
+    fields = {}
+    for key in BLOCK_FIELDS:
+        value = offered if key == "warm_start" else _field(result, key)
+        if back is not None:
+            value = value[back]
+        fields[key] = value.reshape(shape + value.shape[1:])
     return BlockResult(fields=fields, shape=shape)
 
 

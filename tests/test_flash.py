@@ -12,6 +12,7 @@ from hypothesis import strategies as st
 import gridflash
 from gridflash import FlashStatus, InputError, Mixture, flash
 from gridflash.thermo import phase_state, reduced_parameters
+from gridflash.thermo._flash import flash_slabs
 from gridflash.thermo._split import TOL_BALANCE, TOL_RESIDUAL
 
 from ._gibbs_reference import PlainPR, minimise_gibbs
@@ -89,6 +90,35 @@ def test_warm_start_equals_cold_start(oil_gas_mixture):
     warm_cells = np.all(np.isfinite(k_init.reshape(len(p), -1)), axis=1) & two
     assert np.mean(warm.stability_iterations[warm_cells] == 0) > 0.9
     assert warm.iterations[two].mean() < cold.iterations[two].mean()
+
+
+def test_chained_slabs_match_slab_by_slab_warm_starts(oil_gas_mixture):
+    # flash_slabs does in one compiled call what a loop of flash(k_init=previous slab's K) does.
+    mix = oil_gas_mixture
+    p, t, z, shape = _grid()
+    slab = shape[1] * shape[2]
+    chained = flash_slabs(mix, p, t, z, slab)
+    cold = flash_slabs(mix, p, t, z, slab, warm_start=False)
+    previous = None
+    for k in range(shape[0]):
+        cells = slice(k * slab, (k + 1) * slab)
+        one = flash(mix, p[cells], t[cells], z[cells], k_init=previous)
+        good = (one.phase_count == 2) & one.converged
+        previous = np.where(good[:, None], one.K, np.nan)
+        np.testing.assert_array_equal(chained.phase_count[cells], one.phase_count)
+        np.testing.assert_allclose(chained.x[cells], one.x, atol=1e-10)
+        np.testing.assert_allclose(chained.vapour_fraction[cells], one.vapour_fraction, atol=1e-10)
+        # Warm-started cells skipped the stability test as in the loop.
+        np.testing.assert_array_equal(
+            chained.stability_iterations[cells] == 0, one.stability_iterations == 0
+        )
+    # and the warm answers are the cold ones
+    np.testing.assert_array_equal(chained.phase_count, cold.phase_count)
+    np.testing.assert_allclose(chained.x, cold.x, atol=1e-8)
+    np.testing.assert_array_equal(cold.iterations, flash(mix, p, t, z).iterations)
+    assert chained.iterations.sum() < cold.iterations.sum()
+    with pytest.raises(InputError, match="whole slabs"):
+        flash_slabs(mix, p[:-1], t[:-1], z[:-1], slab)
 
 
 def test_warm_start_from_wrong_side_of_a_phase_boundary_falls_back(oil_gas_mixture):

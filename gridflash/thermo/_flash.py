@@ -85,6 +85,38 @@ def flash(
     return _flash_arrays(mixture, p, t, zz, k0)
 
 
+def flash_slabs(
+    mixture: Mixture,
+    pressure: ArrayLike,
+    temperature: ArrayLike,
+    z: ArrayLike,
+    slab_cells: int,
+    *,
+    warm_start: bool = True,
+) -> FlashResult:
+    """Flash cells stored slab after slab, each warm-started from the previous slab.
+
+    The cells are consecutive slabs of ``slab_cells`` cells each, cell ``j`` of one slab being
+    the neighbour of cell ``j`` of the next (e.g. one pressure after another of a grid). With
+    ``warm_start``, each cell after the first slab is started from the K-values of the same cell
+    of the previous slab where that cell converged to two phases, exactly as :func:`flash` with
+    ``k_init`` would be called slab by slab, but in one compiled call. Other arguments and the
+    result are those of :func:`flash`.
+    """
+    if not isinstance(mixture, Mixture):
+        raise InputError(f"mixture must be a gridflash.Mixture, got {type(mixture).__name__}")
+    if (
+        isinstance(slab_cells, bool)
+        or not isinstance(slab_cells, int | np.integer)
+        or (slab_cells < 1)
+    ):
+        raise InputError(f"slab_cells={slab_cells!r} must be a positive integer")
+    p, t, zz, _ = _validate(mixture, pressure, temperature, z, None)
+    if zz.shape[0] % slab_cells:
+        raise InputError(f"{zz.shape[0]} cells do not make whole slabs of {slab_cells}")
+    return _flash_arrays(mixture, p, t, zz, None, chain=int(slab_cells) if warm_start else 0)
+
+
 def _bad_cells(name: str, mask: NDArray[np.bool_], what: str) -> InputError:
     idx = np.flatnonzero(mask)
     listed = ", ".join(str(i) for i in idx[:_MAX_LISTED])
@@ -167,7 +199,7 @@ def _validate(mixture, pressure, temperature, z, k_init):
     return p, t, zz, k0
 
 
-def _flash_arrays(mixture: Mixture, p, t, z, k0) -> FlashResult:
+def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
     n, nc = z.shape
     model = mixture.model
     status = np.empty(n, dtype=np.int8)
@@ -200,6 +232,7 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0) -> FlashResult:
         np.ascontiguousarray(z),
         np.ascontiguousarray(k0) if use_k0 else np.empty((1, nc)),
         use_k0,
+        chain,
         status,
         phase_count,
         beta,

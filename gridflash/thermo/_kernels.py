@@ -1240,6 +1240,7 @@ def flash_batch(
     z,
     k0,
     use_k0,
+    chain,
     status,
     phase_count,
     beta,
@@ -1255,7 +1256,11 @@ def flash_batch(
     balance,
     tpd,
 ):
-    """Flash every cell; fills the output arrays (see _flash._flash_arrays)."""
+    """Flash every cell; fills the output arrays (see _flash._flash_arrays).
+
+    Warm starts: with ``use_k0``, from the rows of ``k0`` without NaN; else with ``chain > 0``,
+    cell ``c`` from the ln K of cell ``c - chain`` where that cell converged to two phases.
+    """
     n, nc = z.shape
     sqrt_a = np.empty(nc)
     b_i = np.empty(nc)
@@ -1302,6 +1307,7 @@ def flash_batch(
             continue
         g_split = _NAN
         done = False
+        warm = False
         if use_k0:
             warm = True
             for i in range(nc):
@@ -1310,12 +1316,20 @@ def flash_batch(
             if warm:
                 for i in range(nc):
                     lnk0[i] = math.log(k0[c, i])
-                st, bt, zl, zv, it, res, bal, g = split_cell(
-                    zc, present, sqrt_a, b_i, omk, d1, d2, lnk0, True, sx, sy, slnk, ws, wm
-                )
-                iterations[c] += it
-                if st == CONVERGED and 0.0 < bt < 1.0:
-                    done = True
+        elif chain > 0 and c >= chain:
+            prev = c - chain
+            warm = status[prev] == CONVERGED and phase_count[prev] == 2
+            for i in range(nc):
+                lnk0[i] = ln_k[prev, i]
+                if not math.isfinite(lnk0[i]):
+                    warm = False
+        if warm:
+            st, bt, zl, zv, it, res, bal, g = split_cell(
+                zc, present, sqrt_a, b_i, omk, d1, d2, lnk0, True, sx, sy, slnk, ws, wm
+            )
+            iterations[c] += it
+            if st == CONVERGED and 0.0 < bt < 1.0:
+                done = True
         if not done:
             for i in range(nc):
                 ln_kw[i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p[c], t[c])
