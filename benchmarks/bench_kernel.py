@@ -84,6 +84,33 @@ def main() -> None:
             print("  profile (top functions by own time):")
             for line in s.getvalue().splitlines()[6:16]:
                 print("   ", line[:150])
+            _inside_the_kernel(mix, p, t, z, dt)
+
+
+def _inside_the_kernel(mix, p, t, z, total):
+    """Time of the compiled flash split by stage, via the public batch functions of each stage
+    (cProfile cannot see inside one compiled call)."""
+    from gridflash.thermo import phase_state, reduced_parameters, stability_test, wilson_ln_k
+
+    model = mix.model
+
+    def eos():
+        sa, b = reduced_parameters(model, p, t)
+        return sa, b, phase_state(model, z, sa, b).ln_phi
+
+    d_eos, (sa, b, lnphi) = timed(eos, repeat=3)
+    lnk = wilson_ln_k(model.tc, model.pc, model.omega, p, t)
+    d_stab, _ = timed(partial(stability_test, model, sa, b, z, lnphi, lnk), repeat=3)
+    d_prop, _ = timed(partial(gridflash.thermo.phase_properties, mix, p, t, z, np.ones(len(p))))
+    print("  inside the compiled flash (same cells, stage by stage through the public functions):")
+    for label, d in (
+        ("EOS parameters + feed phase", d_eos),
+        ("stability test (both trials)", d_stab),
+        ("properties of one phase", d_prop),
+    ):
+        print(f"    {label:30s}: {d / total:6.1%} of the batch flash time")
+    rest = total - d_eos - d_stab - 2 * d_prop
+    print(f"    {'split of two-phase cells, rest':30s}: {rest / total:6.1%}")
 
 
 if __name__ == "__main__":
