@@ -1,4 +1,5 @@
-"""Thermodynamics layer: pure numpy on batches of cells. No dask, xarray or file I/O here."""
+"""Thermodynamics layer: numpy and compiled (numba) kernels on batches of cells. No dask, xarray
+or file I/O here."""
 
 from __future__ import annotations
 

@@ -163,16 +163,17 @@ def cubic_roots_cell(a, b, d1, d2):
         arg = -q / 2.0 - math.copysign(sq, q)
         u1 = math.copysign(abs(arg) ** (1.0 / 3.0), arg)
         t1 = u1 - p / (3.0 * u1) if u1 != 0.0 else 0.0
-        t_max = t1
-        t_min = t1
+        z1 = _polish(t1 + shift, c2, c1, c0)
+        return z1, z1, three
     z_max = _polish(t_max + shift, c2, c1, c0)
     z_min = _polish(t_min + shift, c2, c1, c0)
     return z_max, z_min, three
 
 
 @njit(**_JIT)
-def _gibbs_departure(z, a, b, d1, d2):
-    return z - math.log(z - b) - a / (b * (d1 - d2)) * math.log((z + d1 * b) / (z + d2 * b))
+def _logs(z, b, d1, d2):
+    """``ln(Z - B)`` and ``ln((Z + d1 B) / (Z + d2 B))`` of a root."""
+    return math.log(z - b), math.log((z + d1 * b) / (z + d2 * b))
 
 
 @njit(**_JIT)
@@ -204,16 +205,20 @@ def phase_cell(x, sqrt_a, b_i, omk, d1, d2, root, ln_phi, psi):
         z = z_min if min_ok else z_max
     else:
         z = z_max
-        if min_ok and z_max > bm:
-            if _gibbs_departure(z_min, a, bm, d1, d2) < _gibbs_departure(z_max, a, bm, d1, d2):
-                z = z_min
     if not z > bm:
         for i in range(nc):
             ln_phi[i] = _NAN
         return _NAN, a, bm
-    log_term = math.log((z + d1 * bm) / (z + d2 * bm))
-    lz = math.log(z - bm)
-    coef = a / (bm * (d1 - d2)) * log_term
+    lz, log_term = _logs(z, bm, d1, d2)
+    q = a / (bm * (d1 - d2))
+    if root == ROOT_MIN_GIBBS and min_ok:
+        # The root of lower Gibbs energy: G_dep / RT = Z - ln(Z - B) - q ln(...) (+ const).
+        lz_min, log_min = _logs(z_min, bm, d1, d2)
+        if z_min - lz_min - q * log_min < z_max - lz - q * log_term:
+            z = z_min
+            lz = lz_min
+            log_term = log_min
+    coef = q * log_term
     for i in range(nc):
         br = b_i[i] / bm
         ln_phi[i] = br * (z - 1.0) - lz - coef * (2.0 * psi[i] / a - br)
