@@ -250,7 +250,8 @@ def run(
         remove_store(path)  # refuses anything but an empty folder, before any work starts
 
     todo = [b for b in plan.block_ids() if not done[b]]
-    n_workers = min(workers or spec.run.workers or os.cpu_count() or 1, max(len(todo), 1))
+    local_workers = workers or spec.run.workers or os.cpu_count() or 1
+    n_workers = min(local_workers, max(len(todo), 1))
     computed: list[BlockSummary] = []
     threads = 0
     compute_seconds = 0.0
@@ -279,7 +280,9 @@ def run(
         stats = stats + stored_block_stats(path, plan, block)
     from ._saturation_lines import write_saturation_lines
 
-    write_saturation_lines(path)  # bubble/dew pressure per line, cricondenbars (grid tables)
+    # Bubble/dew pressure per line and cricondenbars (grid tables), computed here, in as many
+    # threads as local workers were asked for (all cores when the blocks ran on a cluster).
+    write_saturation_lines(path, threads=None if address else local_workers)
     attrs = read_root_attrs(path)
     session = time.perf_counter() - started
     final = {

@@ -68,7 +68,9 @@ _KIND_ATTRS = {
 }
 
 
-def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr.Dataset:
+def saturation_lines(
+    table: xr.Dataset, *, mixture: Mixture | None = None, threads: int | None = None
+) -> xr.Dataset:
     """Saturation pressures of every (temperature, composition) line and the cricondenbars.
 
     Parameters
@@ -78,6 +80,8 @@ def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr
         ``temperature`` x the composition dimension.
     mixture : Mixture, optional
         The fluid; default the table's own (:func:`gridflash._store.mixture_from_store`).
+    threads : int, optional
+        Threads to solve the lines in (default: one per core). The answers do not depend on it.
 
     Returns
     -------
@@ -165,7 +169,9 @@ def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr
         pressure[np.maximum(k_lo[lo_idx] - 1, 0)]])
     idx = np.concatenate([up_idx, lo_idx])
     if idx.size:
-        p_sat, kind = _saturation_threads(mixture, t_line[idx], z_line[idx], inside, outside)
+        p_sat, kind = _saturation_threads(
+            mixture, t_line[idx], z_line[idx], inside, outside, threads
+        )
         n_up = up_idx.size
         upper_p[up_idx], upper_kind[up_idx] = p_sat[:n_up], kind[:n_up]
         lower_p[lo_idx], lower_kind[lo_idx] = p_sat[n_up:], kind[n_up:]
@@ -175,7 +181,8 @@ def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr
     bracket_two = np.where(up_ok, pressure[k_up], np.nan).reshape(n_t, n_c)
     bracket_one = np.where(up_ok, pressure[np.minimum(k_up + 1, n_p - 1)], np.nan)
     cb_p, cb_t = _cricondenbars(mixture, temperature, feeds, upper_p, bracket_two,
-                                bracket_one.reshape(n_t, n_c), ~pure_comp & ~above_table)
+                                bracket_one.reshape(n_t, n_c), ~pure_comp & ~above_table,
+                                threads)
 
     tc = table[comp_dim]
     coords = {"temperature": table.temperature, comp_dim: tc}
@@ -213,11 +220,14 @@ def saturation_lines(table: xr.Dataset, *, mixture: Mixture | None = None) -> xr
     return out
 
 
-def write_saturation_lines(path: str | os.PathLike[str]) -> xr.Dataset | None:
+def write_saturation_lines(
+    path: str | os.PathLike[str], *, threads: int | None = None
+) -> xr.Dataset | None:
     """Compute a store's saturation lines and write them into it (metadata not consolidated).
 
-    The runner calls this at the end of every run, before the final consolidation. A store
-    without a pressure x temperature grid (a sampled table) is left as it is (returns None).
+    The runner calls this at the end of every run, before the final consolidation, with its
+    number of local workers as ``threads`` (see :func:`saturation_lines`). A store without a
+    pressure x temperature grid (a sampled table) is left as it is (returns None).
     """
     store = Path(path)
     with _quiet():
@@ -225,7 +235,7 @@ def write_saturation_lines(path: str | os.PathLike[str]) -> xr.Dataset | None:
     try:
         if tuple(ds.phase_count.dims[:2]) != ("pressure", "temperature"):
             return None
-        lines = saturation_lines(ds)
+        lines = saturation_lines(ds, threads=threads)
     finally:
         ds.close()
     # Written with zarr itself: an xarray append would replace the root attributes.
@@ -306,6 +316,7 @@ def _saturation_at(
     z: NDArray[np.float64],
     p_two: NDArray[np.float64],
     p_one: NDArray[np.float64],
+    threads: int | None,
 ) -> NDArray[np.float64]:
     """Upper saturation pressure at arbitrary temperatures, from approximate brackets.
 
@@ -319,16 +330,16 @@ def _saturation_at(
         if not low.any():
             break
         p_one[low] *= _RAISE_FACTOR
-    p_sat, kind = _saturation_threads(mixture, temperature, z, p_two, p_one)
+    p_sat, kind = _saturation_threads(mixture, temperature, z, p_two, p_one, threads)
     return np.where(kind > 0, p_sat, np.nan)
 
 
-def _saturation_threads(mixture, temperature, z, p_two, p_one):
-    """:func:`saturation_pressure` over all cores: the lines are cut into one slice per core and
-    solved in threads (the compiled flash releases the GIL). Each line's answer is independent of
-    the others, so the result is the same as one call."""
+def _saturation_threads(mixture, temperature, z, p_two, p_one, threads):
+    """:func:`saturation_pressure` in ``threads`` threads (default one per core): the lines are
+    cut into one slice per thread (the compiled flash releases the GIL). Each line's answer is
+    independent of the others, so the result is the same as one call."""
     n = temperature.shape[0]
-    parts = min(os.cpu_count() or 1, max(1, n // _MIN_LINES_PER_THREAD))
+    parts = min(threads or os.cpu_count() or 1, max(1, n // _MIN_LINES_PER_THREAD))
     if parts <= 1:
         p_sat, kind, _ = saturation_pressure(mixture, temperature, z, p_two, p_one, rtol=_RTOL)
         return p_sat, kind
@@ -351,6 +362,7 @@ def _cricondenbars(
     bracket_two: NDArray[np.float64],
     bracket_one: NDArray[np.float64],
     searchable: NDArray[np.bool_],
+    threads: int | None,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Cricondenbar of each composition (see :func:`saturation_lines`, Notes)."""
     n_t, n_c = p_sat.shape
@@ -373,7 +385,7 @@ def _cricondenbars(
     z = feeds[cols]
 
     def evaluate(t: NDArray[np.float64], which: NDArray[np.intp]) -> NDArray[np.float64]:
-        values = _saturation_at(mixture, t, z[which], p_two[which], p_one[which])
+        values = _saturation_at(mixture, t, z[which], p_two[which], p_one[which], threads)
         return np.where(np.isfinite(values), values, -np.inf)
 
     # Search brackets: interior maximum -> neighbours; end maximum -> the end interval if the
