@@ -185,10 +185,13 @@ def phase_cell(x, sqrt_a, b_i, omk, d1, d2, root, ln_phi, psi):
     nc = x.shape[0]
     a = 0.0
     bm = 0.0
+    sx = ln_phi  # scratch until ln phi is written below
+    for i in range(nc):
+        sx[i] = sqrt_a[i] * x[i]
     for j in range(nc):
         s = 0.0
         for i in range(nc):
-            s += sqrt_a[i] * x[i] * omk[i, j]
+            s += sx[i] * omk[i, j]
         psi[j] = sqrt_a[j] * s
     for i in range(nc):
         a += x[i] * psi[i]
