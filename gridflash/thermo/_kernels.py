@@ -619,40 +619,9 @@ def stability_cell(
     tws = ws[3:]
     for i in range(nc):
         neg[i] = -ln_kw[i]
-    out_v, tm_v, it_v = stability_trial(
-        z,
-        present,
-        ln_phi_z,
-        sqrt_a,
-        b_i,
-        omk,
-        d1,
-        d2,
-        ln_kw,
-        tol,
-        maxiter,
-        early_exit,
-        ks_v,
-        tws,
-        wm,
-    )
-    out_l, tm_l, it_l = stability_trial(
-        z,
-        present,
-        ln_phi_z,
-        sqrt_a,
-        b_i,
-        omk,
-        d1,
-        d2,
-        neg,
-        tol,
-        maxiter,
-        early_exit,
-        ks_l,
-        tws,
-        wm,
-    )
+    fluid = (z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2)
+    out_v, tm_v, it_v = stability_trial(*fluid, ln_kw, tol, maxiter, early_exit, ks_v, tws, wm)
+    out_l, tm_l, it_l = stability_trial(*fluid, neg, tol, maxiter, early_exit, ks_l, tws, wm)
     unstable_v = out_v == UNSTABLE
     unstable_l = out_l == UNSTABLE
     unstable = unstable_v or unstable_l
