@@ -111,7 +111,9 @@ def run_command(
         options = replace(options, warm_start=False)
     spec = replace(spec, run=options)
     logging.getLogger("distributed").setLevel(logging.ERROR)
-    show = _ProgressLine(sys.stderr) if not quiet and sys.stderr.isatty() else None
+    on_terminal = not quiet and sys.stderr.isatty()
+    _load_kernels(spec.fluid.mixture(), sys.stderr if on_terminal else None)
+    show = _ProgressLine(sys.stderr) if on_terminal else None
     try:
         summary = run(spec, resume=resume, overwrite=overwrite, workers=workers,
                       scheduler_address=scheduler_address, progress=show)
@@ -344,6 +346,61 @@ def main(argv: list[str] | None = None) -> None:
 # --------------------------------------------------------------------------------------------
 # Output
 # --------------------------------------------------------------------------------------------
+
+
+#: Seconds after which loading the kernels is taken to be a compilation and said so.
+_COMPILE_HINT_AFTER = 1.0
+
+
+def _load_kernels(mixture, stream: TextIO | None) -> float:
+    """Flash one cell in this process, so the compiled kernels are ready before the run starts.
+
+    On the first use on a machine this compiles them (about half a minute) and writes numba's
+    disk cache, which local worker processes then load instead of each compiling again; a
+    compilation is announced on ``stream`` (None: silent). Returns the seconds it took.
+    """
+    import numpy as np
+
+    from .thermo import flash
+
+    nc = mixture.n_components
+    return _announce_if_slow(
+        lambda: flash(mixture, 1e6, 300.0, np.full(nc, 1.0 / nc)),
+        stream,
+        "compiling the flash kernels (first use on this machine, about half a minute; later "
+        "runs load them from the disk cache) ...",
+        "kernels ready after {seconds:.1f} s",
+    )
+
+
+def _announce_if_slow(
+    work, stream: TextIO | None, waiting: str, finished: str,
+    hint_after: float = _COMPILE_HINT_AFTER,
+) -> float:
+    """Run ``work()``; if it is still running after ``hint_after`` seconds print ``waiting``,
+    and once it is done ``finished`` (formatted with ``seconds``). Returns the seconds taken."""
+    import threading
+
+    done = threading.Event()
+    said = threading.Event()
+
+    def hint() -> None:
+        if not done.wait(hint_after) and stream is not None:
+            print(waiting, file=stream, flush=True)
+            said.set()
+
+    watcher = threading.Thread(target=hint, daemon=True)
+    watcher.start()
+    start = time.perf_counter()
+    try:
+        work()
+    finally:
+        done.set()
+        watcher.join()
+    seconds = time.perf_counter() - start
+    if said.is_set():
+        print(finished.format(seconds=seconds), file=stream, flush=True)
+    return seconds
 
 
 class _ProgressLine:

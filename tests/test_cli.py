@@ -6,6 +6,7 @@ import io
 import re
 import subprocess
 import sys
+import time
 
 import numpy as np
 import pytest
@@ -13,9 +14,10 @@ import xarray as xr
 import zarr
 from click.testing import CliRunner
 
+import gridflash
 from gridflash._config import load_config
 from gridflash._runner import Progress
-from gridflash.cli import _ProgressLine, cli
+from gridflash.cli import _announce_if_slow, _load_kernels, _ProgressLine, cli
 
 from ._run_helpers import direct_flash, write_config
 
@@ -178,6 +180,22 @@ def test_progress_line():
     text = stream.getvalue()
     assert text.startswith("\r500 / 1,000 cells (50.0%), 500 cells/s, about 1 s left")
     assert "\r1,000 / 1,000 cells (100.0%)" in text and text.endswith("\n")
+
+
+def test_slow_kernel_loading_is_announced():
+    """Work still running after the hint delay (a compilation) is announced and timed; work done
+    before it (kernels loaded from the disk cache) prints nothing."""
+    out = io.StringIO()
+    seconds = _announce_if_slow(lambda: time.sleep(0.3), out, "compiling", "ready {seconds:.1f}",
+                                hint_after=0.05)
+    assert seconds >= 0.3
+    assert out.getvalue().splitlines() == ["compiling", f"ready {seconds:.1f}"]
+    out = io.StringIO()
+    _announce_if_slow(lambda: None, out, "compiling", "ready", hint_after=30.0)
+    assert out.getvalue() == ""
+    # the real thing, with the kernels already compiled in this process: silent, well under 1 s
+    assert _load_kernels(gridflash.Mixture(["C1", "nC4"]), out) < 1.0
+    assert out.getvalue() == ""
 
 
 def test_installed_entry_point(tmp_path):
