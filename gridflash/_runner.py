@@ -27,6 +27,7 @@ from ._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from ._errors import GridflashError, InputError, StoreError
 from ._grid import block_inputs
 from ._sample_sweep import sample_block
+from ._saturation_lines import write_saturation_lines
 from ._spec import RunSpec
 from ._store import (
     BlockStats,
@@ -273,16 +274,19 @@ def run(
             t0 = time.perf_counter()
             computed = _drain(client, spec, path, plan, todo, threads, progress)
             compute_seconds = time.perf_counter() - t0
+        # Bubble/dew pressure per line and cricondenbars (grid tables), on the run's workers
+        # (locally, in as many threads as workers were asked for, when no block was left).
+        write_saturation_lines(
+            path,
+            executor=None if client is None else client.get_executor(pure=False,
+                                                                     retries=_RETRIES),
+            workers=threads or local_workers,
+        )
 
     reused = [b for b in plan.block_ids() if done[b]]
     stats = sum((s.stats for s in computed), BlockStats())
     for block in reused:
         stats = stats + stored_block_stats(path, plan, block)
-    from ._saturation_lines import write_saturation_lines
-
-    # Bubble/dew pressure per line and cricondenbars (grid tables), computed here, in as many
-    # threads as local workers were asked for (all cores when the blocks ran on a cluster).
-    write_saturation_lines(path, threads=None if address else local_workers)
     attrs = read_root_attrs(path)
     session = time.perf_counter() - started
     final = {

@@ -19,7 +19,7 @@ import contextlib
 import os
 import warnings
 from collections.abc import Iterator
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Executor, ThreadPoolExecutor
 from pathlib import Path
 
 import numpy as np
@@ -58,6 +58,7 @@ _END_STEP = 1e-3
 #: Factor and number of steps by which a one-phase bracket end is raised when it is not.
 _RAISE_FACTOR = 1.25
 _MIN_LINES_PER_THREAD = 64  # below this, one thread (thread start-up would dominate)
+_PARTS_PER_WORKER = 1  # composition parts per worker when a store's lines are computed
 _RAISE_STEPS = 20
 _INV_PHI = (np.sqrt(5.0) - 1.0) / 2.0
 
@@ -221,13 +222,20 @@ def saturation_lines(
 
 
 def write_saturation_lines(
-    path: str | os.PathLike[str], *, threads: int | None = None
+    path: str | os.PathLike[str],
+    *,
+    executor: Executor | None = None,
+    workers: int | None = None,
 ) -> xr.Dataset | None:
     """Compute a store's saturation lines and write them into it (metadata not consolidated).
 
-    The runner calls this at the end of every run, before the final consolidation, with its
-    number of local workers as ``threads`` (see :func:`saturation_lines`). A store without a
-    pressure x temperature grid (a sampled table) is left as it is (returns None).
+    The compositions are cut into parts (one per worker) and each part's lines and
+    cricondenbars are computed by :func:`saturation_lines_part` on ``executor``: the runner
+    passes its dask client's executor, so they are computed on the run's own workers (a
+    cluster's, for a run on one); by default a local thread pool of ``workers`` threads (default
+    one per core). Every line and composition is computed independently of the others, so the
+    answer does not depend on the parts. A store without a pressure x temperature grid (a
+    sampled table) is left as it is (returns None).
     """
     store = Path(path)
     with _quiet():
@@ -235,9 +243,23 @@ def write_saturation_lines(
     try:
         if tuple(ds.phase_count.dims[:2]) != ("pressure", "temperature"):
             return None
-        lines = saturation_lines(ds, threads=threads)
+        comp_dim = _grid_dims(ds)[2]
+        n_comp = ds.sizes[comp_dim]
     finally:
         ds.close()
+    workers = workers or os.cpu_count() or 1
+    n_parts = max(1, min(n_comp, _PARTS_PER_WORKER * workers))
+    # Part k takes every n_parts-th composition from k on: neighbouring compositions cost about
+    # the same (gas-rich ones, with dew points, cost more), so interleaved parts are even.
+    with contextlib.ExitStack() as stack:
+        if executor is None:
+            executor = stack.enter_context(ThreadPoolExecutor(max_workers=workers))
+        parts = list(executor.map(
+            saturation_lines_part, [str(store)] * n_parts, range(n_parts), [n_parts] * n_parts
+        ))
+    lines = xr.concat(parts, dim=comp_dim) if n_parts > 1 else parts[0]
+    order = np.concatenate([np.arange(k, n_comp, n_parts) for k in range(n_parts)])
+    lines = lines.isel({comp_dim: np.argsort(order)})
     # Written with zarr itself: an xarray append would replace the root attributes.
     group = zarr.open_group(str(store), mode="r+", use_consolidated=False)
     for name, var in lines.data_vars.items():
@@ -248,6 +270,18 @@ def write_saturation_lines(
             dimension_names=list(var.dims), attributes=dict(var.attrs), overwrite=True)
         array[...] = values
     return lines
+
+
+def saturation_lines_part(path: str, start: int, step: int) -> xr.Dataset:
+    """:func:`saturation_lines` of the compositions ``start, start + step, ...`` of a store, in
+    one thread: the task :func:`write_saturation_lines` maps over the parts of a table."""
+    with _quiet():
+        ds = xr.open_zarr(path, consolidated=False)
+    try:
+        comp_dim = _grid_dims(ds)[2]
+        return saturation_lines(ds.isel({comp_dim: slice(start, None, step)}), threads=1).load()
+    finally:
+        ds.close()
 
 
 def add_saturation_lines(path: str | os.PathLike[str]) -> xr.Dataset:

@@ -9,6 +9,8 @@ departure function and parameters for this pair (Kunz & Wagner, J. Chem. Eng. Da
 
 from __future__ import annotations
 
+import shutil
+
 import CoolProp.CoolProp as CP
 import numpy as np
 import pytest
@@ -17,6 +19,7 @@ import zarr
 from click.testing import CliRunner
 
 import gridflash
+from gridflash._saturation_lines import write_saturation_lines
 from gridflash.cli import cli
 from gridflash.thermo import pure_vapour_pressure, saturation_pressure
 
@@ -209,6 +212,20 @@ def test_cricondenbar_outside_the_temperature_range_is_not_reported(binary):
     p = binary.saturation_pressure.sel(mixing_ratio=0.2).values
     assert np.all(np.diff(p) > 0)
     assert np.isnan(binary.cricondenbar_pressure.sel(mixing_ratio=0.2).values)
+
+
+def test_lines_do_not_depend_on_how_the_compositions_are_parted(binary_path, binary, tmp_path):
+    """The run computes the lines in composition parts on its workers; every line and
+    composition is solved independently, so the stored values equal one whole-table
+    computation, and a recomputation in other parts (three threads) writes the same."""
+    whole = gridflash.saturation_lines(binary)
+    copy = tmp_path / "copy.zarr"
+    shutil.copytree(binary_path, copy)
+    rewritten = write_saturation_lines(copy, workers=3)  # 3 interleaved parts of 5
+    for name in whole.data_vars:
+        assert np.array_equal(binary[name].values, whole[name].values, equal_nan=True), name
+        assert np.array_equal(rewritten[name].values, whole[name].values, equal_nan=True), name
+    assert np.isfinite(whole.cricondenbar_pressure.values).any()
 
 
 def test_list_table_and_cli_recompute(tmp_path_factory):
