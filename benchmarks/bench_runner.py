@@ -1,9 +1,11 @@
 """Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
 
-Run: ``python benchmarks/bench_runner.py [--quick]``. For each case it starts ``gridflash run``
-as a subprocess with local worker threads (the default; or processes, or one worker), samples
-the resident memory (RSS) of the whole process tree (driver, workers, everything they start)
-every 50 ms, and prints wall time, cells/s and peak RSS. Baselines measured in this same process:
+Run: ``python benchmarks/bench_runner.py [--quick] [--repeat N]``. For each case it starts
+``gridflash run`` as a subprocess with local worker threads (the default; or processes, or one
+worker), samples the resident memory (RSS) of the whole process tree (driver, workers,
+everything they start) every 50 ms, and prints wall time, cells/s and peak RSS; the all-workers
+and 1-worker cases, whose ratio is the scaling figure, are run ``--repeat`` times (default 3)
+and their medians printed. Baselines measured in this same process:
 
 - kernel: one direct ``gridflash.flash`` call on 20 000 cells of the same grid (one core), so the
   run's cells/s is printed as a ratio to ``cores x`` the kernel's rate;
@@ -21,6 +23,7 @@ import argparse
 import os
 import re
 import shutil
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -126,6 +129,13 @@ def iterations_warm_vs_cold(folder: Path) -> tuple[float, float]:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="1.25e5 cells instead of 1e6")
+    parser.add_argument(
+        "--repeat",
+        type=int,
+        default=3,
+        metavar="N",
+        help="runs of the all-workers and 1-worker cases (medians; default 3)",
+    )
     args = parser.parse_args()
     cores = os.cpu_count() or 1
     big = (50, 50, 50) if args.quick else (100, 100, 100)
@@ -154,8 +164,19 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
         results = {}
+        scaling = ("config default chunks", "config default chunks, 1 worker")
         for label, shape, chunks, *extra in cases:
-            r = run_case(folder, shape, chunks, *extra)
+            runs = [
+                run_case(folder, shape, chunks, *extra)
+                for _ in range(args.repeat if label in scaling else 1)
+            ]
+            r = {
+                **runs[0],
+                **{
+                    key: statistics.median(x[key] for x in runs)
+                    for key in ("wall", "peak", "run_rate")
+                },
+            }
             results[label] = r
             print(
                 f"\n{label}: chunks {r['chunks']} ({r['blocks']} blocks); load average "
@@ -171,6 +192,9 @@ def main() -> None:
                 f"{r['store_mb']:.0f} MB on disk; mean iterations {r['mean_iterations']:.2f}; "
                 f"unconverged {r['unconverged']}"
             )
+            if len(runs) > 1:
+                walls = ", ".join(f"{x['wall']:.1f}" for x in runs)
+                print(f"  (medians of {len(runs)} runs; wall times {walls} s)")
         one, two = results["config default chunks, 1 worker"], results["config default chunks"]
         print(
             f"\nscaling: {cores} workers / 1 worker, wall time ratio "
