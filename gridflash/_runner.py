@@ -12,6 +12,7 @@ workers write the store themselves, so its path must be on a filesystem every wo
 from __future__ import annotations
 
 import contextlib
+import functools
 import itertools
 import logging
 import os
@@ -27,7 +28,7 @@ from ._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from ._errors import GridflashError, InputError, StoreError
 from ._grid import block_inputs
 from ._sample_sweep import sample_block
-from ._saturation_lines import write_saturation_lines
+from ._saturation_lines import saturation_lines_part, write_saturation_lines
 from ._spec import RunSpec
 from ._store import (
     BlockStats,
@@ -275,12 +276,11 @@ def run(
             computed = _drain(client, spec, path, plan, todo, threads, progress)
             compute_seconds = time.perf_counter() - t0
         # Bubble/dew pressure per line and cricondenbars (grid tables), on the run's workers
-        # (locally, in as many threads as workers were asked for, when no block was left).
+        # (here, in as many threads as workers were asked for, when no block was left).
         write_saturation_lines(
             path,
-            executor=None if client is None else client.get_executor(pure=False,
-                                                                     retries=_RETRIES),
-            workers=threads or local_workers,
+            compute_parts=None if client is None else functools.partial(_lines_on_workers, client),
+            threads=local_workers,
         )
 
     reused = [b for b in plan.block_ids() if done[b]]
@@ -499,6 +499,20 @@ def _drain(
         futures.clear()
         raise
     return out
+
+
+def _lines_on_workers(client, path: str) -> list:
+    """The saturation-line parts of a store, part k of n on the k-th of the n worker processes,
+    in that worker's threads (threads share a process's GIL; processes do not)."""
+    workers = sorted(client.scheduler_info(n_workers=-1).get("workers", {}).items())
+    futures = [
+        client.submit(
+            saturation_lines_part, path, k, len(workers), max(1, info.get("nthreads", 1)),
+            workers=[address], allow_other_workers=True, retries=_RETRIES, pure=False,
+        )
+        for k, (address, info) in enumerate(workers)
+    ]
+    return client.gather(futures)
 
 
 def _one_line(exc: BaseException) -> str:

@@ -18,8 +18,8 @@ from __future__ import annotations
 import contextlib
 import os
 import warnings
-from collections.abc import Iterator
-from concurrent.futures import Executor, ThreadPoolExecutor
+from collections.abc import Callable, Iterator
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import numpy as np
@@ -58,7 +58,6 @@ _END_STEP = 1e-3
 #: Factor and number of steps by which a one-phase bracket end is raised when it is not.
 _RAISE_FACTOR = 1.25
 _MIN_LINES_PER_THREAD = 64  # below this, one thread (thread start-up would dominate)
-_PARTS_PER_WORKER = 1  # composition parts per worker when a store's lines are computed
 _RAISE_STEPS = 20
 _INV_PHI = (np.sqrt(5.0) - 1.0) / 2.0
 
@@ -224,18 +223,17 @@ def saturation_lines(
 def write_saturation_lines(
     path: str | os.PathLike[str],
     *,
-    executor: Executor | None = None,
-    workers: int | None = None,
+    compute_parts: Callable[[str], list[xr.Dataset]] | None = None,
+    threads: int | None = None,
 ) -> xr.Dataset | None:
     """Compute a store's saturation lines and write them into it (metadata not consolidated).
 
-    The compositions are cut into parts (one per worker) and each part's lines and
-    cricondenbars are computed by :func:`saturation_lines_part` on ``executor``: the runner
-    passes its dask client's executor, so they are computed on the run's own workers (a
-    cluster's, for a run on one); by default a local thread pool of ``workers`` threads (default
-    one per core). Every line and composition is computed independently of the others, so the
-    answer does not depend on the parts. A store without a pressure x temperature grid (a
-    sampled table) is left as it is (returns None).
+    By default the lines are computed here, in ``threads`` threads (default one per core). The
+    runner passes ``compute_parts(path)``, which computes them on its workers: part ``k`` of
+    ``n`` (:func:`saturation_lines_part`) on each of its ``n`` worker processes, in that
+    worker's threads. Every line and composition is computed independently of the others, so the
+    answer does not depend on the parts or threads. A store without a pressure x temperature
+    grid (a sampled table) is left as it is (returns None).
     """
     store = Path(path)
     with _quiet():
@@ -247,16 +245,11 @@ def write_saturation_lines(
         n_comp = ds.sizes[comp_dim]
     finally:
         ds.close()
-    workers = workers or os.cpu_count() or 1
-    n_parts = max(1, min(n_comp, _PARTS_PER_WORKER * workers))
-    # Part k takes every n_parts-th composition from k on: neighbouring compositions cost about
-    # the same (gas-rich ones, with dew points, cost more), so interleaved parts are even.
-    with contextlib.ExitStack() as stack:
-        if executor is None:
-            executor = stack.enter_context(ThreadPoolExecutor(max_workers=workers))
-        parts = list(executor.map(
-            saturation_lines_part, [str(store)] * n_parts, range(n_parts), [n_parts] * n_parts
-        ))
+    if compute_parts is None:
+        parts = [saturation_lines_part(str(store), 0, 1, threads)]
+    else:
+        parts = compute_parts(str(store))
+    n_parts = len(parts)
     lines = xr.concat(parts, dim=comp_dim) if n_parts > 1 else parts[0]
     order = np.concatenate([np.arange(k, n_comp, n_parts) for k in range(n_parts)])
     lines = lines.isel({comp_dim: np.argsort(order)})
@@ -272,14 +265,18 @@ def write_saturation_lines(
     return lines
 
 
-def saturation_lines_part(path: str, start: int, step: int) -> xr.Dataset:
-    """:func:`saturation_lines` of the compositions ``start, start + step, ...`` of a store, in
-    one thread: the task :func:`write_saturation_lines` maps over the parts of a table."""
+def saturation_lines_part(
+    path: str, part: int, n_parts: int, threads: int | None = None
+) -> xr.Dataset:
+    """:func:`saturation_lines` of part ``part`` of ``n_parts`` of a store's compositions: every
+    ``n_parts``-th composition from ``part`` on (neighbouring compositions cost about the same,
+    so interleaved parts cost alike), in ``threads`` threads (default one per core)."""
     with _quiet():
         ds = xr.open_zarr(path, consolidated=False)
     try:
         comp_dim = _grid_dims(ds)[2]
-        return saturation_lines(ds.isel({comp_dim: slice(start, None, step)}), threads=1).load()
+        table = ds.isel({comp_dim: slice(part, None, n_parts)})
+        return saturation_lines(table, threads=threads).load()
     finally:
         ds.close()
 
