@@ -22,6 +22,7 @@ attributes, so xarray keeps integer and boolean variables as integers and boolea
 
 from __future__ import annotations
 
+import asyncio
 import contextlib
 import datetime as _dt
 import json
@@ -38,6 +39,7 @@ import dask.array as da
 import numpy as np
 import xarray as xr
 import zarr
+from zarr.api import asynchronous as zarr_async
 from zarr.codecs import BloscCodec
 
 from ._chunks import BlockId, ChunkPlan
@@ -596,14 +598,27 @@ def write_block(path: Path, plan: ChunkPlan, block: BlockId, result: BlockResult
     Writes each variable's region straight through zarr: the store was created with the final
     dtypes and no value transformations (see :func:`_with_cell_variables`), so the bytes are the
     ones ``Dataset.to_zarr(region=...)`` would write, without xarray re-reading every
-    variable's metadata and encoding at each call (about half the time of a block write, spent
-    holding the GIL).
+    variable's metadata and encoding at each call. The variables are written concurrently with
+    zarr's asynchronous API, in an event loop of the calling (worker) thread: about half the
+    time of one synchronous write after another, most of which holds the GIL.
     """
     index = plan.block_slices(block)
-    group = _open_group(path, "r+")
+    values = {var.name: np.asarray(result[var.source], dtype=var.dtype) for var in VARIABLES}
     with zarr.config.set(_ZARR_CONFIG):
-        for var in VARIABLES:
-            group[var.name][index] = np.asarray(result[var.source], dtype=var.dtype)
+        asyncio.run(_write_arrays(str(path), index, values))
+
+
+async def _write_arrays(path: str, index: tuple[slice, ...], values: dict[str, np.ndarray]):
+    try:
+        group = await zarr_async.open_group(path, mode="r+", use_consolidated=False)
+    except (FileNotFoundError, zarr.errors.GroupNotFoundError) as exc:
+        raise StoreError(f"no zarr store at {path!r} ({exc})") from None
+
+    async def write(name: str, data: np.ndarray) -> None:
+        array = await group.getitem(name)
+        await array.setitem(index, data)
+
+    await asyncio.gather(*(write(name, data) for name, data in values.items()))
 
 
 def mark_block_complete(path: Path, block: BlockId) -> None:
