@@ -501,10 +501,14 @@ def _drain(
     return out
 
 
-def _lines_on_workers(client, path: str) -> list:
-    """The saturation-line parts of a store, part k of n on the k-th of the n worker processes,
-    in that worker's threads (threads share a process's GIL; processes do not)."""
+def _lines_on_workers(client, path: str, n_compositions: int) -> list:
+    """The saturation-line parts of a store, part k of n on the k-th of n worker processes (n:
+    the workers, at most one per composition), in that worker's threads (threads share a
+    process's GIL; processes do not). Computed here if no worker is left."""
     workers = sorted(client.scheduler_info(n_workers=-1).get("workers", {}).items())
+    workers = workers[:n_compositions]
+    if not workers:
+        return [saturation_lines_part(path, 0, 1)]
     futures = [
         client.submit(
             saturation_lines_part, path, k, len(workers), max(1, info.get("nthreads", 1)),

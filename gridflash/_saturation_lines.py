@@ -223,17 +223,18 @@ def saturation_lines(
 def write_saturation_lines(
     path: str | os.PathLike[str],
     *,
-    compute_parts: Callable[[str], list[xr.Dataset]] | None = None,
+    compute_parts: Callable[[str, int], list[xr.Dataset]] | None = None,
     threads: int | None = None,
 ) -> xr.Dataset | None:
     """Compute a store's saturation lines and write them into it (metadata not consolidated).
 
     By default the lines are computed here, in ``threads`` threads (default one per core). The
-    runner passes ``compute_parts(path)``, which computes them on its workers: part ``k`` of
-    ``n`` (:func:`saturation_lines_part`) on each of its ``n`` worker processes, in that
-    worker's threads. Every line and composition is computed independently of the others, so the
-    answer does not depend on the parts or threads. A store without a pressure x temperature
-    grid (a sampled table) is left as it is (returns None).
+    runner passes ``compute_parts(path, n_compositions)``, which computes them on its workers:
+    part ``k`` of ``n`` (:func:`saturation_lines_part`, ``n`` at most ``n_compositions``) on
+    each of ``n`` worker processes, in that worker's threads. Every line and composition is
+    computed independently of the others, so the answer does not depend on the parts or
+    threads. A store without a pressure x temperature grid (a sampled table) is left as it is
+    (returns None).
     """
     store = Path(path)
     with _quiet():
@@ -248,7 +249,7 @@ def write_saturation_lines(
     if compute_parts is None:
         parts = [saturation_lines_part(str(store), 0, 1, threads)]
     else:
-        parts = compute_parts(str(store))
+        parts = compute_parts(str(store), n_comp)
     n_parts = len(parts)
     lines = xr.concat(parts, dim=comp_dim) if n_parts > 1 else parts[0]
     order = np.concatenate([np.arange(k, n_comp, n_parts) for k in range(n_parts)])

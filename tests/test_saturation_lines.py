@@ -222,7 +222,8 @@ def test_lines_do_not_depend_on_how_the_compositions_are_parted(binary_path, bin
     copy = tmp_path / "copy.zarr"
     shutil.copytree(binary_path, copy)
     rewritten = write_saturation_lines(
-        copy, compute_parts=lambda path: [saturation_lines_part(path, k, 3, 1) for k in range(3)]
+        copy,
+        compute_parts=lambda path, n: [saturation_lines_part(path, k, 3, 1) for k in range(3)],
     )
     for name in whole.data_vars:
         assert np.array_equal(binary[name].values, whole[name].values, equal_nan=True), name
