@@ -231,6 +231,28 @@ def test_lines_do_not_depend_on_how_the_compositions_are_parted(binary_path, bin
     assert np.isfinite(whole.cricondenbar_pressure.values).any()
 
 
+def test_lines_on_more_workers_than_compositions(tmp_path_factory, tmp_path):
+    """On a cluster with more worker processes than compositions (4 single-thread workers, a
+    3-feed table) the parts stop at one per composition and the lines are those of one
+    whole-table computation."""
+    from distributed import Client, LocalCluster
+
+    from gridflash._runner import _lines_on_workers
+
+    path = build_store(tmp_path_factory, "list", LIST_CONFIG)
+    whole = gridflash.saturation_lines(gridflash.open_table(path).load())
+    copy = tmp_path / "copy.zarr"
+    shutil.copytree(path, copy)
+    with LocalCluster(n_workers=4, threads_per_worker=1, processes=False,
+                      dashboard_address="127.0.0.1:0", scheduler_kwargs={"dashboard": False}
+                      ) as cluster, Client(cluster, set_as_default=False) as client:
+        parts = _lines_on_workers(client, str(copy), 3)
+        assert len(parts) == 3
+        lines = write_saturation_lines(copy, compute_parts=lambda p, n: parts)
+    for name in whole.data_vars:
+        assert np.array_equal(lines[name].values, whole[name].values, equal_nan=True), name
+
+
 def test_list_table_and_cli_recompute(tmp_path_factory):
     """A list-axis table gets its lines too; `gridflash saturation` rewrites identical values
     and keeps the store's attributes (it is still a complete gridflash store)."""
