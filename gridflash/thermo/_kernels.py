@@ -836,47 +836,16 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
     max_ss = WARM_MAX_SS if warm else MAX_SS
     iters = 0
     to_newton = False
+    # The split at the current ln K (its arrays are updated in place).
+    trial = (z, present, lnk, x, y, sqrt_a, b_i, omk, d1, d2, lnphi_l, lnphi_v, psi_l, psi_v)
+    trial = trial + (lnk_next, sub)
     for it in range(1, max_ss + 1):
         iters = it
-        beta, inside, zl, zv, res, gibbs = _evaluate_lnk(
-            z,
-            present,
-            lnk,
-            x,
-            y,
-            sqrt_a,
-            b_i,
-            omk,
-            d1,
-            d2,
-            lnphi_l,
-            lnphi_v,
-            psi_l,
-            psi_v,
-            lnk_next,
-            sub,
-        )
+        beta, inside, zl, zv, res, gibbs = _evaluate_lnk(*trial)
         if accelerated and inside and gibbs > gibbs_prev + 1e-12 * abs(gibbs_prev):
             for i in range(nc):
                 lnk[i] = plain_next[i]
-            beta, inside, zl, zv, res, gibbs = _evaluate_lnk(
-                z,
-                present,
-                lnk,
-                x,
-                y,
-                sqrt_a,
-                b_i,
-                omk,
-                d1,
-                d2,
-                lnphi_l,
-                lnphi_v,
-                psi_l,
-                psi_v,
-                lnk_next,
-                sub,
-            )
+            beta, inside, zl, zv, res, gibbs = _evaluate_lnk(*trial)
         accelerated = False
         finite = math.isfinite(res) and math.isfinite(beta)
         maxlnk = 0.0
