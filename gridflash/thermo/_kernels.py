@@ -29,7 +29,7 @@ ROOT_MIN_GIBBS = 0
 ROOT_VAPOUR = 1
 ROOT_LIQUID = 2
 
-# FlashStatus codes (see _result.FlashStatus)
+# Flash status codes (public as _result.FlashStatus)
 CONVERGED = 0
 MAX_ITERATIONS = 1
 TRIVIAL_SOLUTION = 2
@@ -37,7 +37,7 @@ ROOT_FAILURE = 3
 NO_TWO_PHASE_ROOT = 4
 GIBBS_INCREASE = 5
 
-# RachfordRiceStatus codes
+# Rachford-Rice status codes (public as _rachford_rice.RachfordRiceStatus)
 RR_CONVERGED = 0
 RR_ALL_K_BELOW_ONE = 1
 RR_ALL_K_ABOVE_ONE = 2

@@ -34,12 +34,13 @@ _MAXITER = _k.RR_MAXITER
 class RachfordRiceStatus(enum.IntEnum):
     """Outcome codes of :func:`rachford_rice`."""
 
-    CONVERGED = 0
-    ALL_K_BELOW_ONE = 1  # no root: g < 0 throughout; the feed is liquid by these K-values
-    ALL_K_ABOVE_ONE = 2  # no root: g > 0 throughout; the feed is vapour by these K-values
-    MAX_ITERATIONS = 3
-    AT_LOWER_LIMIT = 4  # root below the requested lower limit; beta set to the limit
-    AT_UPPER_LIMIT = 5  # root above the requested upper limit; beta set to the limit
+    # The codes the compiled kernel sets (one definition, in _kernels).
+    CONVERGED = _k.RR_CONVERGED
+    ALL_K_BELOW_ONE = _k.RR_ALL_K_BELOW_ONE  # no root: g < 0 throughout; feed liquid by these K
+    ALL_K_ABOVE_ONE = _k.RR_ALL_K_ABOVE_ONE  # no root: g > 0 throughout; feed vapour by these K
+    MAX_ITERATIONS = _k.RR_MAX_ITERATIONS
+    AT_LOWER_LIMIT = _k.RR_AT_LOWER_LIMIT  # root below the requested lower limit; beta = limit
+    AT_UPPER_LIMIT = _k.RR_AT_UPPER_LIMIT  # root above the requested upper limit; beta = limit
 
 
 @dataclass(frozen=True, eq=False)

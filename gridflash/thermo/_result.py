@@ -8,6 +8,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from . import _kernels as _k
+
 __all__ = ["FlashResult", "FlashStatus", "PhaseLabel", "PhaseProperties"]
 
 
@@ -22,12 +24,13 @@ class FlashStatus(enum.IntEnum):
     5 GIBBS_INCREASE       the converged split has a higher Gibbs energy than the feed
     """
 
-    CONVERGED = 0
-    MAX_ITERATIONS = 1
-    TRIVIAL_SOLUTION = 2
-    ROOT_FAILURE = 3
-    NO_TWO_PHASE_ROOT = 4
-    GIBBS_INCREASE = 5
+    # The codes the compiled kernels set (one definition, in _kernels).
+    CONVERGED = _k.CONVERGED
+    MAX_ITERATIONS = _k.MAX_ITERATIONS
+    TRIVIAL_SOLUTION = _k.TRIVIAL_SOLUTION
+    ROOT_FAILURE = _k.ROOT_FAILURE
+    NO_TWO_PHASE_ROOT = _k.NO_TWO_PHASE_ROOT
+    GIBBS_INCREASE = _k.GIBBS_INCREASE
 
 
 class PhaseLabel(enum.IntEnum):
