@@ -14,9 +14,9 @@ import xarray as xr
 import gridflash
 
 # The CO2-hydrocarbon interaction parameters are common-practice magnitudes for Peng-Robinson
-# (0.10-0.15), from memory; they only make the invented fluid realistic.
-_CONFIG = """\
-# Invented test fluid and grid for the runner tests (no real field data).
+# (0.10-0.15), from memory; they only make the invented fluid realistic. Braces are doubled:
+# the configs built from this are str.format templates.
+INVENTED_FLUID = """\
 [fluid]
 eos = "PR78"
 components = ["CO2", "C1", "nC4", "nC10"]
@@ -27,7 +27,12 @@ mole_fractions = {{ CO2 = 0.02, C1 = 0.43, nC4 = 0.20, nC10 = 0.35 }}
 
 [streams.invented_gas]
 mole_fractions = {{ CO2 = 0.75, C1 = 0.22, nC4 = 0.03 }}
+"""
 
+_CONFIG = (
+    "# Invented test fluid and grid for the runner tests (no real field data).\n"
+    + INVENTED_FLUID
+    + """
 [pressure]
 unit = "bar"
 start = {p_start}
@@ -55,6 +60,7 @@ scheduler = "{scheduler}"
 sweep = "{sweep}"
 warm_start = {warm}
 """
+)
 
 #: Small grid: 6 pressures x 4 temperatures x 5 ratios = 120 cells.
 SMALL = {"p_start": 20.0, "p_stop": 270.0, "p_count": 6, "t_count": 4, "c_count": 5}

@@ -8,21 +8,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-# The CO2-hydrocarbon interaction parameters are common-practice magnitudes for Peng-Robinson
-# (0.10-0.15), from memory; they only make the invented fluid realistic.
-SAMPLE_CONFIG = """\
-# Invented test fluid, sampled (no real field data).
-[fluid]
-eos = "PR78"
-components = ["CO2", "C1", "nC4", "nC10"]
-kij = {{ "CO2-C1" = 0.10, "CO2-nC4" = 0.13, "CO2-nC10" = 0.11 }}
+from ._run_helpers import INVENTED_FLUID
 
-[streams.invented_oil]
-mole_fractions = {{ CO2 = 0.02, C1 = 0.43, nC4 = 0.20, nC10 = 0.35 }}
-
-[streams.invented_gas]
-mole_fractions = {{ CO2 = 0.75, C1 = 0.22, nC4 = 0.03 }}
-
+SAMPLE_CONFIG = (
+    "# Invented test fluid, sampled (no real field data).\n"
+    + INVENTED_FLUID
+    + """
 [streams.invented_lean_gas]
 mole_fractions = {{ C1 = 0.95, nC4 = 0.05 }}
 
@@ -51,6 +42,7 @@ workers = 2
 scheduler = "threads"
 warm_start = {warm}
 """
+)
 
 MIXING = 'kind = "mixing"\nstreams = ["invented_oil", "invented_gas"]\nstart = 0.0\nstop = 1.0'
 SIMPLEX = ('kind = "simplex"\n'
