@@ -79,8 +79,7 @@ def flash(
     >>> int(r.phase_count[0]), bool(r.converged[0])
     (2, True)
     """
-    if not isinstance(mixture, Mixture):
-        raise InputError(f"mixture must be a gridflash.Mixture, got {type(mixture).__name__}")
+    _check_mixture(mixture)
     p, t, zz, k0 = _validate(mixture, pressure, temperature, z, k_init)
     return _flash_arrays(mixture, p, t, zz, k0)
 
@@ -103,8 +102,7 @@ def flash_slabs(
     ``k_init`` would be called slab by slab, but in one compiled call. Other arguments and the
     result are those of :func:`flash`.
     """
-    if not isinstance(mixture, Mixture):
-        raise InputError(f"mixture must be a gridflash.Mixture, got {type(mixture).__name__}")
+    _check_mixture(mixture)
     if (
         isinstance(slab_cells, bool)
         or not isinstance(slab_cells, int | np.integer)
@@ -115,6 +113,11 @@ def flash_slabs(
     if zz.shape[0] % slab_cells:
         raise InputError(f"{zz.shape[0]} cells do not make whole slabs of {slab_cells}")
     return _flash_arrays(mixture, p, t, zz, None, chain=int(slab_cells) if warm_start else 0)
+
+
+def _check_mixture(mixture) -> None:
+    if not isinstance(mixture, Mixture):
+        raise InputError(f"mixture must be a gridflash.Mixture, got {type(mixture).__name__}")
 
 
 def _bad_cells(name: str, mask: NDArray[np.bool_], what: str) -> InputError:
