@@ -13,7 +13,7 @@ import gridflash
 from gridflash import FlashStatus, InputError, Mixture, flash
 from gridflash.thermo import phase_state, reduced_parameters
 from gridflash.thermo._flash import flash_slabs
-from gridflash.thermo._split import TOL_BALANCE, TOL_RESIDUAL
+from gridflash.thermo.kernels.split import TOL_BALANCE, TOL_RESIDUAL
 
 from ._gibbs_reference import PlainPR, minimise_gibbs
 from .conftest import mixing_line

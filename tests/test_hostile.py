@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from gridflash import FlashStatus, Mixture, flash
-from gridflash.thermo._split import TOL_BALANCE, TOL_RESIDUAL
+from gridflash.thermo.kernels.split import TOL_BALANCE, TOL_RESIDUAL
 
 from ._gibbs_reference import PlainPR, classify
 from .conftest import INVENTED_GAS, INVENTED_OIL, mixing_line

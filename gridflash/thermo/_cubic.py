@@ -15,7 +15,7 @@ where ``u = delta1 + delta2`` and ``w = delta1 delta2``. The van der Waals one-f
 ``a = sum_ij x_i x_j (1 - k_ij) sqrt(a_i a_j)``, ``b = sum_i x_i b_i`` are used throughout.
 
 Every function works on arrays over cells (leading axis ``n``) and components (last axis ``nc``);
-the per-cell arithmetic is compiled (``_kernels.py``), so there is no Python loop over cells.
+the per-cell arithmetic is compiled (``kernels/eos.py``), so there is no Python loop over cells.
 """
 
 from __future__ import annotations
@@ -27,7 +27,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._types import EosName, RootChoice
-from . import _kernels as _k
+from . import kernels as _k
 
 __all__ = [
     "CubicModel",

@@ -6,7 +6,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .._errors import InputError
-from . import _kernels as _k
+from . import kernels as _k
 from ._mixture import Mixture
 from ._properties import phase_properties, single_phase_label
 from ._result import FlashResult, FlashStatus, PhaseLabel
@@ -58,7 +58,7 @@ def flash(
     -----
     Every cell is first tested for stability by Michelsen's tangent-plane-distance method
     (:mod:`gridflash.thermo._stability`); unstable feeds are split into two phases by successive
-    substitution with GDEM acceleration and a Newton finish (:mod:`gridflash.thermo._split`).
+    substitution with GDEM acceleration and a Newton finish (:mod:`gridflash.thermo.kernels.split`).
     Where substitution fails, the trial phase of the most negative tangent-plane distance is
     iterated to its stationary point and the Gibbs energy is minimised directly from a split
     with a small amount of it, by Newton's method on a Hessian shifted to be positive definite
@@ -68,7 +68,7 @@ def flash(
     the phase of larger Z. A cell is ``converged`` when its fugacity residual is below 1e-10
     and its material balance below 1e-12; otherwise its ``status`` says why.
 
-    The computation of each cell is compiled (:mod:`gridflash.thermo._kernels`) and does not
+    The computation of each cell is compiled (:mod:`gridflash.thermo.kernels`) and does not
     depend on the other cells of the batch.
 
     Examples

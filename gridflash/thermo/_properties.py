@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from . import _kernels as _k
-from . import _property_kernels as _pk
+from . import kernels as _k
 from ._result import PhaseLabel, PhaseProperties
+from .kernels import properties as _pk
 
 __all__ = [
     "li_pseudocritical_temperature",
@@ -24,7 +24,7 @@ def wilson_ln_k(tc, pc, omega, pressure, temperature):
 
     Wilson, G. M. (1968), A modified Redlich-Kwong equation of state, AIChE 64th National Meeting.
     Returns shape (n, nc) for ``pressure``, ``temperature`` of shape (n,); the compiled flash
-    uses the same function (``_kernels.wilson_ln_k_cell``).
+    uses the same function (``kernels.eos.wilson_ln_k_cell``).
     """
     p = np.ascontiguousarray(pressure, dtype=float)
     t = np.ascontiguousarray(temperature, dtype=float)

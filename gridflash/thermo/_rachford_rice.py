@@ -12,7 +12,7 @@ The unknown is the distance ``d`` from the asymptote nearer the root, ``beta = b
 ``c_i + s d (K_i - 1)``, ``c_i = 1 + base (K_i - 1)`` and ``c_i = 0`` exactly for the
 component(s) defining that asymptote. This keeps full relative precision when the root lies very
 close to an asymptote (the cancellation in ``1 + beta (K_i - 1)`` noted by Nielsen & Lia, Fluid
-Phase Equilib. 2023). The compiled per-cell solver is ``_kernels.rachford_rice_cell``.
+Phase Equilib. 2023). The compiled per-cell solver is ``kernels.rachford_rice.rachford_rice_cell``.
 """
 
 from __future__ import annotations
@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from . import _kernels as _k
+from . import kernels as _k
 
 __all__ = ["RachfordRiceResult", "RachfordRiceStatus", "rachford_rice"]
 
@@ -34,7 +34,7 @@ _MAXITER = _k.RR_MAXITER
 class RachfordRiceStatus(enum.IntEnum):
     """Outcome codes of :func:`rachford_rice`."""
 
-    # The codes the compiled kernel sets (one definition, in _kernels).
+    # The codes the compiled kernel sets (one definition, in kernels.codes).
     CONVERGED = _k.RR_CONVERGED
     ALL_K_BELOW_ONE = _k.RR_ALL_K_BELOW_ONE  # no root: g < 0 throughout; feed liquid by these K
     ALL_K_ABOVE_ONE = _k.RR_ALL_K_ABOVE_ONE  # no root: g > 0 throughout; feed vapour by these K

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from . import _kernels as _k
+from . import kernels as _k
 
 __all__ = ["FlashResult", "FlashStatus", "PhaseLabel", "PhaseProperties"]
 
@@ -24,7 +24,7 @@ class FlashStatus(enum.IntEnum):
     5 GIBBS_INCREASE       the converged split has a higher Gibbs energy than the feed
     """
 
-    # The codes the compiled kernels set (one definition, in _kernels).
+    # The codes the compiled kernels set (one definition, in kernels.codes).
     CONVERGED = _k.CONVERGED
     MAX_ITERATIONS = _k.MAX_ITERATIONS
     TRIVIAL_SOLUTION = _k.TRIVIAL_SOLUTION

@@ -116,7 +116,7 @@ def saturation_pressure(
     incipient : ndarray, shape (n, nc)
         Composition of the incipient phase.
     """
-    from . import _kernels as _k
+    from . import kernels as _k
     from ._flash import flash  # the flash is the oracle; imported here to avoid a cycle
 
     t = np.ascontiguousarray(temperature, dtype=float)

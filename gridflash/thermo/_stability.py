@@ -19,7 +19,7 @@ the Gibbs surface) and is concluded from the sign of ``tm`` there. A trial is st
 reaches a stationary point with ``tm >= -1e-10`` or approaches the feed itself
 (``sum (ln Ks)^2 < 1e-8`` with ``tm >= 0``); unstable as soon as ``tm < -1e-6`` (or at a
 stationary point with ``tm < -1e-10``). The compiled per-cell iteration is
-``_kernels.stability_trial``.
+``kernels.stability.stability_trial``.
 """
 
 from __future__ import annotations
@@ -29,7 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from . import _kernels as _k
+from . import kernels as _k
 from ._cubic import CubicModel
 
 __all__ = ["StabilityResult", "stability_test"]

@@ -11,21 +11,20 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
 
-from ._kernels import _JIT, R
+from ._policy import R, kernel
 
 ATM = 101325.0  # Pa, exact
 _NAN = math.nan
 
 
-@njit(**_JIT)
+@kernel
 def xi_cell(tc, pc, mw):
     """Viscosity-reducing parameter ``Tc^(1/6) / (M^(1/2) Pc^(2/3))``, Tc in K, Pc in Pa."""
     return tc ** (1.0 / 6.0) / (math.sqrt(mw) * (pc / ATM) ** (2.0 / 3.0))
 
 
-@njit(**_JIT)
+@kernel
 def stiel_thodos_cell(tc, xi, t):
     """Dilute-gas viscosity of one component, cP (Stiel & Thodos 1961)."""
     tr = t / tc
@@ -34,7 +33,7 @@ def stiel_thodos_cell(tc, xi, t):
     return 17.78e-5 * abs(4.58 * tr - 1.67) ** 0.625 / xi
 
 
-@njit(**_JIT)
+@kernel
 def stiel_thodos_batch(tc, pc, mw, t, out):
     """Dilute-gas viscosities (n, nc), Pa s."""
     nc = tc.shape[0]
@@ -46,7 +45,7 @@ def stiel_thodos_batch(tc, pc, mw, t, out):
             out[c, i] = stiel_thodos_cell(tc[i], xi[i], t[c]) * 1e-3
 
 
-@njit(**_JIT)
+@kernel
 def lbc_cell(tc, pc, mw, vc, sqrt_mw, mu_i, x, molar_density):
     """Lohrenz-Bray-Clark viscosity of one phase, Pa s; ``mu_i`` dilute-gas viscosities, cP."""
     num = 0.0
@@ -71,7 +70,7 @@ def lbc_cell(tc, pc, mw, vc, sqrt_mw, mu_i, x, molar_density):
     return mu * 1e-3
 
 
-@njit(**_JIT)
+@kernel
 def lbc_batch(tc, pc, mw, vc, t, x, molar_density, out):
     """Lohrenz-Bray-Clark viscosities (n,), Pa s; rows of x holding NaN give NaN."""
     n, nc = x.shape
@@ -97,7 +96,7 @@ def lbc_batch(tc, pc, mw, vc, t, x, molar_density, out):
         out[c] = lbc_cell(tc, pc, mw, vc, sqrt_mw, mu_i, x[c], molar_density[c])
 
 
-@njit(**_JIT)
+@kernel
 def properties_batch(
     tc, pc, mw, vc, shift, p, t, x, z_factor, volume, density, mass_density, molar_mass, viscosity
 ):
