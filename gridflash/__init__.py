@@ -3,15 +3,14 @@
 from __future__ import annotations
 
 from ._errors import ConfigError, GridflashError, InputError, StoreError
-from ._export import export_table
-from ._lookup import lookup
-from ._plot import phase_map, plot_table, property_map
-from ._saturation_lines import add_saturation_lines, saturation_lines
-from ._store import mixture_from_store
-from ._table import open_table
+from ._version import __version__
+from .analysis._export import export_table
+from .analysis._lookup import lookup
+from .analysis._plot import phase_map, plot_table, property_map
+from .analysis._saturation_lines import add_saturation_lines, saturation_lines
+from .store._reader import open_table
+from .store._store import mixture_from_store
 from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
-
-__version__ = "0.1.0"
 
 __all__ = [
     "Component",

@@ -8,8 +8,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from gridflash._config import load_config
-from gridflash._runner import run
+from gridflash.config._parser import load_config
+from gridflash.runner import run
 
 #: Methane + propane, both streams single components, so the mixing ratio is the methane mole
 #: fraction z1 and its ends are pure propane (r = 0) and pure methane (r = 1).

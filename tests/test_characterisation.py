@@ -640,7 +640,7 @@ def test_analysis_validation():
 def test_fluid_table_toml_round_trip(invented_oil_with_scn):
     # The written TOML is a valid gridflash config fluid: parse it with the config parser and
     # get the same components, composition and interaction parameters back.
-    from gridflash._config import parse_config
+    from gridflash.config._parser import parse_config
 
     fluid = characterise(invented_oil_with_scn, n_pseudo=3)
     text = fluid_table_toml(fluid, eos="SRK", stream="oil") + (

@@ -15,9 +15,9 @@ import zarr
 from click.testing import CliRunner
 
 import gridflash
-from gridflash._config import load_config
-from gridflash._runner import Progress
 from gridflash.cli import _announce_if_slow, _load_kernels, _ProgressLine, cli
+from gridflash.config._parser import load_config
+from gridflash.runner import Progress
 
 from ._run_helpers import direct_flash, write_config
 

@@ -20,8 +20,8 @@ import pytest
 import zarr
 from click.testing import CliRunner
 
-from gridflash._store import VARIABLES, read_root_attrs
 from gridflash.cli import cli
+from gridflash.store._store import VARIABLES, read_root_attrs
 
 from ._run_helpers import assert_stores_identical, write_config
 
@@ -151,7 +151,11 @@ def test_killed_run_resumes(medium, tmp_path, seed, kind):
     deadline = time.monotonic() + 60
     while _marks(store) < target and run.poll() is None and time.monotonic() < deadline:
         time.sleep(0.005)
-    time.sleep(rng.uniform(0.0, 0.2))
+    # A random moment after the target, but before the last block is marked (on a fast machine
+    # the remaining blocks can finish within the longest wait; two are in flight at a time).
+    stop = time.monotonic() + rng.uniform(0.0, 0.2)
+    while time.monotonic() < stop and _marks(store) < 9:
+        time.sleep(0.002)
     assert run.poll() is None, "the run ended before it could be killed; use a bigger grid"
     os.kill(run.pid, signal.SIGKILL)
     run.wait(timeout=10)
@@ -188,11 +192,11 @@ def in_process_scheduler():
 
 def test_workers_that_cannot_see_the_store(tmp_path, monkeypatch, in_process_scheduler):
     from gridflash import StoreError
-    from gridflash._config import load_config
-    from gridflash._runner import run
+    from gridflash.config._parser import load_config
+    from gridflash.runner import run
 
     address = in_process_scheduler(1)
-    monkeypatch.setattr("gridflash._runner._sees_store", lambda path: False)
+    monkeypatch.setattr("gridflash.runner._sees_store", lambda path: False)
     spec = load_config(write_config(tmp_path))
     with pytest.raises(StoreError, match="cannot see the store .* every worker shares") as info:
         run(spec, scheduler_address=address)
@@ -202,10 +206,10 @@ def test_workers_that_cannot_see_the_store(tmp_path, monkeypatch, in_process_sch
 
 def test_scheduler_without_workers(tmp_path, monkeypatch, in_process_scheduler):
     from gridflash import GridflashError
-    from gridflash._config import load_config
-    from gridflash._runner import run
+    from gridflash.config._parser import load_config
+    from gridflash.runner import run
 
-    monkeypatch.setattr("gridflash._runner._WORKER_TIMEOUT", 1.0)
+    monkeypatch.setattr("gridflash.runner._WORKER_TIMEOUT", 1.0)
     address = in_process_scheduler(0)
     with pytest.raises(GridflashError, match="has no workers after 1 s"):
         run(load_config(write_config(tmp_path)), scheduler_address=address)
@@ -217,16 +221,16 @@ def test_failed_write_is_one_line_and_leaves_the_run_unfinished(tmp_path, monkey
 
     import gridflash
     from gridflash import StoreError
-    from gridflash._config import load_config
-    from gridflash._runner import run
-    from gridflash._store import write_block
+    from gridflash.config._parser import load_config
+    from gridflash.runner import run
+    from gridflash.store._store import write_block
 
     def full_disk(path, plan, block, result):
         if block == (1, 1, 0):
             raise OSError(errno.ENOSPC, "No space left on device")
         write_block(path, plan, block, result)
 
-    monkeypatch.setattr("gridflash._runner.write_block", full_disk)
+    monkeypatch.setattr("gridflash.runner.write_block", full_disk)
     spec = load_config(write_config(tmp_path))
     with pytest.raises(StoreError, match=r"block \(1, 1, 0\).*No space left.*--resume") as info:
         run(spec)

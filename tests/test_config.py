@@ -27,25 +27,25 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from gridflash import ConfigError
-from gridflash._config import (
+from gridflash.config._parser import (
     canonical_config,
     canonical_json,
     changed_keys,
     load_config,
     parse_config,
 )
-from gridflash._grid import (
-    block_inputs,
-    mixing_line,
-    simplex_lattice,
-    simplex_size,
-)
-from gridflash._units import (
+from gridflash.config._units import (
     PRESSURE_UNITS,
     TEMPERATURE_UNITS,
     molar_volume_to_si,
     pressure_to_pa,
     temperature_to_kelvin,
+)
+from gridflash.plan._grid import (
+    block_inputs,
+    mixing_line,
+    simplex_lattice,
+    simplex_size,
 )
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -26,10 +26,10 @@ from click.testing import CliRunner
 
 import gridflash
 from gridflash import InputError, StoreError
-from gridflash._config import load_config
-from gridflash._export import _boxes, export_table, parse_split, split_of, split_unit
-from gridflash._runner import run
+from gridflash.analysis._export import _boxes, export_table, parse_split, split_of, split_unit
 from gridflash.cli import cli
+from gridflash.config._parser import load_config
+from gridflash.runner import run
 
 from ._run_helpers import write_config
 from ._sample_helpers import SIMPLEX, write_sample_config

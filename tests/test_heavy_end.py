@@ -11,8 +11,8 @@ import xarray as xr
 from click.testing import CliRunner
 
 from gridflash import ConfigError
-from gridflash._config import load_config, parse_config
 from gridflash.cli import cli
+from gridflash.config._parser import load_config, parse_config
 
 CONFIGS = Path(__file__).resolve().parent.parent / "configs"
 HEAVY = CONFIGS / "heavy_oil.toml"

@@ -12,7 +12,7 @@ from matplotlib.colors import to_rgb
 from matplotlib.image import imread
 
 import gridflash
-from gridflash._plot import PHASE_COLOURS, parse_at, phase_map, plot_table, property_map
+from gridflash.analysis._plot import PHASE_COLOURS, parse_at, phase_map, plot_table, property_map
 from gridflash.cli import cli
 
 from ._table_helpers import BINARY_CONFIG, build_store

@@ -11,8 +11,8 @@ from pathlib import Path
 import numpy as np
 
 import gridflash
-from gridflash._config import load_config
-from gridflash._runner import run
+from gridflash.config._parser import load_config
+from gridflash.runner import run
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -13,9 +13,9 @@ import zarr
 
 import gridflash
 from gridflash import GridflashError, InputError, StoreError
-from gridflash._config import load_config
-from gridflash._runner import Progress, run
-from gridflash._store import read_root_attrs
+from gridflash.config._parser import load_config
+from gridflash.runner import Progress, run
+from gridflash.store._store import read_root_attrs
 
 from ._run_helpers import (
     assert_same_phase_split,
@@ -223,7 +223,7 @@ def test_unwritable_output(tmp_path):
 
 
 def test_unreachable_scheduler_leaves_store_alone(reference, tmp_path, monkeypatch):
-    monkeypatch.setattr("gridflash._runner._CONNECT_TIMEOUT", 1.0)
+    monkeypatch.setattr("gridflash.runner._CONNECT_TIMEOUT", 1.0)
     spec, path = reference
     copy = tmp_path / "copy.zarr"
     shutil.copytree(path, copy)

@@ -15,7 +15,9 @@ from hypothesis import strategies as st
 
 import gridflash
 from gridflash import StoreError
-from gridflash._chunks import (
+from gridflash.compute._sweep import slab_indices, sweep_block
+from gridflash.config._parser import load_config
+from gridflash.plan._chunks import (
     DEFAULT_CHUNK_CELLS,
     MAX_SWEEP_DEPTH,
     ChunkPlan,
@@ -23,9 +25,8 @@ from gridflash._chunks import (
     chunk_plan,
     default_chunks,
 )
-from gridflash._config import load_config
-from gridflash._grid import block_inputs
-from gridflash._store import (
+from gridflash.plan._grid import block_inputs
+from gridflash.store._store import (
     VARIABLES,
     completed_blocks,
     create_store,
@@ -33,7 +34,6 @@ from gridflash._store import (
     remove_store,
     write_block,
 )
-from gridflash._sweep import slab_indices, sweep_block
 
 from ._run_helpers import direct_flash, write_config
 

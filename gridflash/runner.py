@@ -24,13 +24,14 @@ from pathlib import Path
 
 import numpy as np
 
-from ._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from ._errors import GridflashError, InputError, StoreError
-from ._grid import block_inputs
-from ._sample_sweep import sample_block
-from ._saturation_lines import saturation_lines_part, write_saturation_lines
-from ._spec import RunSpec
-from ._store import (
+from .analysis._saturation_lines import saturation_lines_part, write_saturation_lines
+from .compute._sample_sweep import sample_block
+from .compute._sweep import sweep_block
+from .config._spec import RunSpec
+from .plan._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
+from .plan._grid import block_inputs
+from .store._store import (
     BlockStats,
     block_stats,
     completed_blocks,
@@ -45,7 +46,6 @@ from ._store import (
     stored_chunks,
     write_block,
 )
-from ._sweep import sweep_block
 
 __all__ = ["BlockSummary", "BlockTask", "Progress", "RunSummary", "compute_block", "run"]
 
@@ -344,7 +344,7 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
 
 
 def _changed_keys(old_text: str, new_text: str) -> list[str]:
-    from ._config import canonical_config, changed_keys
+    from .config._parser import canonical_config, changed_keys
 
     try:
         return changed_keys(canonical_config(old_text), canonical_config(new_text))

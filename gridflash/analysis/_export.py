@@ -45,8 +45,8 @@ from typing import Any, Literal
 import numpy as np
 import xarray as xr
 
-from ._errors import InputError, StoreError
-from ._table import open_table
+from .._errors import InputError, StoreError
+from ..store._reader import open_table
 
 __all__ = [
     "DEFAULT_SPLIT",

@@ -22,7 +22,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from ._errors import ConfigError
+from .._errors import ConfigError
 
 __all__ = [
     "MOLAR_VOLUME_UNITS",

@@ -12,8 +12,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .thermo import FlashResult, Mixture
-from .thermo._flash import flash_slabs
+from ..thermo import FlashResult, Mixture
+from ..thermo._flash import flash_slabs
 
 __all__ = [
     "BLOCK_FIELDS",

@@ -6,7 +6,7 @@ state), so the functions are safe in scripts, servers and tests alike.
 
 A phase map colours every grid node by its phase state (two phases, one vapour-like phase, one
 liquid-like phase), draws the stored saturation line (see
-:mod:`gridflash._saturation_lines`) where pressure is one of the axes, contours the vapour
+:mod:`gridflash.analysis._saturation_lines`) where pressure is one of the axes, contours the vapour
 fraction inside the two-phase region and marks unconverged cells. Property maps show the
 liquid and vapour mass densities and viscosities the same way, blank where a phase is absent.
 """
@@ -23,8 +23,8 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
-from ._errors import ConfigError, GridflashError, InputError, StoreError
-from ._units import pressure_to_pa, pressure_unit, temperature_to_kelvin, temperature_unit
+from .._errors import ConfigError, GridflashError, InputError, StoreError
+from ..config._units import pressure_to_pa, pressure_unit, temperature_to_kelvin, temperature_unit
 
 __all__ = [
     "PHASE_COLOURS",
@@ -252,7 +252,7 @@ def plot_table(
     list of Path
         The files written, named ``<kind>_<y>_vs_<x>[_<dim>-<value>...].png``.
     """
-    from ._table import open_table
+    from ..store._reader import open_table
 
     unknown = [k for k in kinds if k not in PLOT_KINDS]
     if unknown:

@@ -14,8 +14,8 @@ import math
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
-from ._errors import ConfigError, StoreError
-from ._spec import RunSpec
+from .._errors import ConfigError, StoreError
+from ..config._spec import RunSpec
 
 __all__ = [
     "DEFAULT_CHUNK_CELLS",

@@ -13,16 +13,16 @@ from typing import Any
 
 import numpy as np
 
-from ._chunks import ChunkPlan
-from ._errors import StoreError
-from ._store import (
+from .._errors import StoreError
+from ..plan._chunks import ChunkPlan
+from ..store._store import (
     BLOCK_COMPLETE,
     BlockStats,
     block_stats,
     is_gridflash_store,
     read_root_attrs,
 )
-from .thermo import FlashStatus, PhaseLabel
+from ..thermo import FlashStatus, PhaseLabel
 
 __all__ = ["AxisReport", "StoreReport", "UnconvergedCell", "inspect_store"]
 

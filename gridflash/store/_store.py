@@ -42,11 +42,11 @@ import zarr
 from zarr.api import asynchronous as zarr_async
 from zarr.codecs import BloscCodec
 
-from ._chunks import BlockId, ChunkPlan
-from ._errors import StoreError
-from ._spec import RunSpec
-from ._sweep import BlockResult
-from .thermo import FlashStatus, PhaseLabel
+from .._errors import StoreError
+from ..compute._sweep import BlockResult
+from ..config._spec import RunSpec
+from ..plan._chunks import BlockId, ChunkPlan
+from ..thermo import FlashStatus, PhaseLabel
 
 __all__ = [
     "BLOCK_COMPLETE",
@@ -91,7 +91,7 @@ class Variable:
     name : str
         Variable name in the store.
     source : str
-        Key in :class:`gridflash._sweep.BlockResult` it is copied from.
+        Key in :class:`gridflash.compute._sweep.BlockResult` it is copied from.
     dtype : str
     fill_value : object
         Zarr fill value (what an unwritten cell reads as).
@@ -292,7 +292,7 @@ def _component_records(spec: RunSpec) -> list[dict[str, Any]]:
 
 
 def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
-    from . import __version__
+    from .._version import __version__
 
     return {
         "title": "isothermal flash table computed by gridflash",
@@ -319,7 +319,7 @@ def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
 
 def _template(spec: RunSpec, plan: ChunkPlan) -> tuple[xr.Dataset, dict[str, dict[str, Any]]]:
     if spec.sampling is not None:
-        from ._sample_store import sample_coordinates
+        from ._sample_schema import sample_coordinates
 
         coords, data, encoding, attrs = sample_coordinates(spec, plan, _COMPRESSORS)
         return _with_cell_variables(spec, plan, coords, data, encoding, attrs)
@@ -515,7 +515,7 @@ def mixture_from_store(source: xr.Dataset | Mapping[str, Any] | str | os.PathLik
     """
     from dataclasses import replace
 
-    from .thermo import Component, Mixture
+    from ..thermo import Component, Mixture
 
     if isinstance(source, xr.Dataset):
         attrs: Mapping[str, Any] = source.attrs

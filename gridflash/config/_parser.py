@@ -1,4 +1,4 @@
-"""Read a run description (TOML) into a validated, immutable :class:`~gridflash._spec.RunSpec`.
+"""Read a run description (TOML) into a validated, immutable :class:`~gridflash.config._spec.RunSpec`.
 
 The key reference is ``docs/config.md``; the annotated examples are in ``configs/``. In short::
 
@@ -45,10 +45,11 @@ from typing import Any, NoReturn
 
 import numpy as np
 
-from ._errors import ConfigError, InputError
-from ._grid import list_axis, mixing_axis, simplex_axis, simplex_size
+from .._errors import ConfigError, InputError
+from ..plan._grid import list_axis, mixing_axis, simplex_axis, simplex_size
+from ..plan._sampling import SEQUENCES
+from ..thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_names
 from ._heavy_end import HeavyEnd, parse_heavy_end
-from ._sampling import SEQUENCES
 from ._spec import Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec, SampleDesign
 from ._units import (
     PRESSURE_UNITS,
@@ -60,7 +61,6 @@ from ._units import (
     temperature_to_kelvin,
     temperature_unit,
 )
-from .thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_names
 
 __all__ = [
     "MAX_AXIS_POINTS",
@@ -1277,6 +1277,6 @@ class _Parser:
             dim = dims[2] if key == "composition" else key
             n = _int(v, _join("run.chunks", key), 1, None, "a chunk length in grid points")
             given[dim] = min(n, lengths[dim])
-        # Only the dimensions the config gives: the chunk plan (gridflash._chunks) chooses the
+        # Only the dimensions the config gives: the chunk plan (gridflash.plan._chunks) chooses the
         # others, so the default policy lives in one place.
         return tuple((d, given[d]) for d in dims if d in given)

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import xarray as xr
 
-from ._errors import StoreError
+from .._errors import StoreError
 from ._store import BLOCK_COMPLETE, is_gridflash_store, read_root_attrs
 
 __all__ = ["open_table"]

@@ -12,8 +12,8 @@ from itertools import combinations
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from ._errors import InputError
-from ._spec import CompositionAxis, RunSpec
+from .._errors import InputError
+from ..config._spec import CompositionAxis, RunSpec
 
 __all__ = [
     "block_inputs",

@@ -20,9 +20,9 @@ from typing import Any
 
 import numpy as np
 
-from ._errors import ConfigError, InputError
-from .thermo import CharacterisedFluid, Component, FluidAnalysis, PlusFraction, ScnFraction
-from .thermo import characterise as _characterise
+from .._errors import ConfigError, InputError
+from ..thermo import CharacterisedFluid, Component, FluidAnalysis, PlusFraction, ScnFraction
+from ..thermo import characterise as _characterise
 
 __all__ = ["HEAVY_END_KEYS", "HeavyEnd", "parse_heavy_end"]
 
