@@ -135,11 +135,23 @@ def run_command(
 @click.argument("store", type=click.Path(path_type=Path))
 @click.option("--list", "max_listed", type=click.IntRange(min=0), default=20, show_default=True,
               metavar="N", help="Unconverged cells to list individually.")
-def inspect_command(store: Path, max_listed: int) -> None:
-    """Summarise the zarr store STORE: axes, phase states, unconverged cells, iterations."""
-    from .analysis._inspect import inspect_store
+@click.option("--pressure-unit", metavar="UNIT",
+              help="Pressure unit shown: bar, MPa, kPa, psia, atm, Pa (default: the config's).")
+@click.option("--temperature-unit", metavar="UNIT",
+              help="Temperature unit shown: degC, K, degF (default: the config's).")
+def inspect_command(store: Path, max_listed: int, pressure_unit: str | None,
+                    temperature_unit: str | None) -> None:
+    """Summarise the zarr store STORE: axes, phase states, unconverged cells, iterations.
 
-    click.echo(_format_report(inspect_store(store, max_listed=max_listed)))
+    Pressures and temperatures are shown in the units the store's config was written in,
+    unless --pressure-unit / --temperature-unit say otherwise.
+    """
+    from .analysis._inspect import config_units, inspect_store
+
+    report = inspect_store(store, max_listed=max_listed)
+    p_unit, t_unit = config_units(report.attrs)
+    units = _Units(pressure_unit or p_unit, temperature_unit or t_unit)
+    click.echo(_format_report(report, units))
 
 
 _EPILOG_CHARACTERISE = """\b
@@ -475,7 +487,50 @@ def _format_summary(summary, spec) -> str:
     return "\n".join(lines)
 
 
-def _format_report(report) -> str:
+def _plain(value: float) -> str:
+    """A number to 6 significant digits without e-notation (2000000, 313.15, 0.25)."""
+    import numpy as np
+
+    value = float(value)
+    if value == 0.0 or not np.isfinite(value) or not 1e-6 <= abs(value) < 1e15:
+        return f"{value:g}"
+    return np.format_float_positional(float(f"{value:.6g}"), trim="-")
+
+
+class _Units:
+    """Shows SI pressures and temperatures in chosen units (checked at once: a bad unit is a
+    one-line error)."""
+
+    def __init__(self, pressure: str, temperature: str) -> None:
+        from ._errors import InputError
+        from .config._units import pressure_unit, temperature_unit
+
+        try:
+            self.pressure = pressure_unit(pressure, key="--pressure-unit")
+            self.temperature = temperature_unit(temperature, key="--temperature-unit")
+        except GridflashError as exc:
+            raise InputError(str(exc)) from None
+
+    def unit(self, dim: str, si_units: str) -> str:
+        shown = {"pressure": self.pressure, "temperature": self.temperature}.get(dim, si_units)
+        return "" if shown in ("", "1") else shown
+
+    def value(self, dim: str, si_value: float) -> str:
+        from .config._units import pressure_from_pa, temperature_from_kelvin
+
+        if dim == "pressure":
+            return _plain(pressure_from_pa(si_value, self.pressure))
+        if dim == "temperature":
+            return _plain(temperature_from_kelvin(si_value, self.temperature))
+        return _plain(si_value)
+
+    def text(self, dim: str, si_value: float) -> str:
+        """``20 bar``, ``40 degC``, ``0.25``."""
+        unit = self.unit(dim, "")
+        return f"{self.value(dim, si_value)} {unit}".rstrip()
+
+
+def _format_report(report, units: _Units) -> str:
     attrs = report.attrs
     stats = report.stats
     state = attrs.get("run_state", "?")
@@ -488,9 +543,11 @@ def _format_report(report) -> str:
         "axes:",
     ]
     for ax in report.axes:
-        units = "" if ax.units in ("", "1") else f" {ax.units}"
-        span = f"{ax.first:g}" if ax.size == 1 else f"{ax.first:g} .. {ax.last:g}"
-        lines.append(f"  {ax.name:<13} {ax.size:>6} points  {span}{units}  ({ax.long_name})")
+        unit = units.unit(ax.name, ax.units)
+        first, last = units.value(ax.name, ax.first), units.value(ax.name, ax.last)
+        span = first if ax.size == 1 else f"{first} .. {last}"
+        lines.append(f"  {ax.name:<13} {ax.size:>6} points  {span}{' ' + unit if unit else ''}"
+                     f"  ({ax.long_name})")
     lines.append(
         f"  chunks: {' x '.join(map(str, report.chunks))}, swept along {attrs.get('sweep', '?')}"
         f", warm starts {'on' if attrs.get('warm_start') else 'off'}"
@@ -512,7 +569,7 @@ def _format_report(report) -> str:
     for name, count in report.status_counts.items():
         lines.append(f"  {name}: {count:,}")
     for cell in report.unconverged:
-        where = ", ".join(f"{k}={v:g}" for k, v in cell.coords.items())
+        where = ", ".join(f"{k}={units.text(k, v)}" for k, v in cell.coords.items())
         lines.append(f"  at {where}: {cell.status} (residual {cell.residual:.3g})")
     if stats.unconverged > len(report.unconverged):
         lines.append(f"  ... and {stats.unconverged - len(report.unconverged):,} more")

@@ -142,7 +142,10 @@ def test_inspect(cold_store, tmp_path):
     assert result.exit_code == 0, result.stderr
     out = result.stdout
     assert "run state: complete" in out and "4 of 4 chunks complete" in out
-    assert re.search(r"pressure\s+6 points\s+2e\+06 \.\. 2\.7e\+07 Pa", out)
+    # in the config's own units (bar, degC), without e-notation
+    assert re.search(r"pressure\s+6 points\s+20 \.\. 270 bar\s", out)
+    assert re.search(r"temperature\s+4 points\s+40 \.\. 160 degC\s", out)
+    assert "e+0" not in out
     assert re.search(rf"two-phase\s+{two}\b", out)
     assert "convergence: 0 unconverged cell(s)" in out
     # an unconverged cell is listed with its coordinates and status name
@@ -156,7 +159,35 @@ def test_inspect(cold_store, tmp_path):
     out = invoke("inspect", copy).stdout
     assert "convergence: 1 unconverged cell(s)" in out
     p, t, r = (float(ds.pressure[2]), float(ds.temperature[1]), float(ds.mixing_ratio[3]))
-    assert f"at pressure={p:g}, temperature={t:g}, mixing_ratio={r:g}: max_iterations" in out
+    assert (f"at pressure={p / 1e5:g} bar, temperature={t - 273.15:g} degC, mixing_ratio={r:g}: "
+            "max_iterations") in out
+
+
+@pytest.mark.parametrize(
+    ("options", "pressure", "temperature"),
+    [
+        # 20 bar = 2e6 Pa = 290.075 psia (1 psi = 6894.757293168 Pa, NIST SP 811 App. B.8);
+        # 40 degC = 104 degF = 313.15 K (NIST SP 811 Sec. 4.2.1.1)
+        (["--pressure-unit", "psia", "--temperature-unit", "degF"], "290.075 .. 3916.02 psia",
+         "104 .. 320 degF"),
+        (["--pressure-unit", "Pa", "--temperature-unit", "K"], "2000000 .. 27000000 Pa",
+         "313.15 .. 433.15 K"),
+        (["--pressure-unit", "MPa"], "2 .. 27 MPa", "40 .. 160 degC"),
+    ],
+)
+def test_inspect_units_option(cold_store, options, pressure, temperature):
+    _, path, _ = cold_store
+    result = invoke("inspect", path, *options)
+    assert result.exit_code == 0, result.stderr
+    assert re.search(rf"pressure\s+6 points\s+{re.escape(pressure)}\s", result.stdout)
+    assert re.search(rf"temperature\s+4 points\s+{re.escape(temperature)}\s", result.stdout)
+
+
+def test_inspect_bad_unit_is_one_line(cold_store):
+    _, path, _ = cold_store
+    result = invoke("inspect", path, "--pressure-unit", "psig")
+    assert result.exit_code == 1
+    assert result.stderr.count("\n") == 1 and "psig" in result.stderr
 
 
 def test_inspect_unfinished_store(tmp_path):
