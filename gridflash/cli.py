@@ -367,9 +367,11 @@ _COMPILE_HINT_AFTER = 1.0
 def _load_kernels(mixture, stream: TextIO | None) -> float:
     """Flash one cell in this process, so the compiled kernels are ready before the run starts.
 
-    On the first use on a machine this compiles them (about half a minute) and writes numba's
-    disk cache, which local worker processes then load instead of each compiling again; a
-    compilation is announced on ``stream`` (None: silent). Returns the seconds it took.
+    On the first use on a machine (no compiled kernels in the disk cache,
+    :func:`kernels_cached`) this compiles them (about half a minute) and writes numba's disk
+    cache, which local worker processes then load instead of each compiling again; a
+    compilation, and only a compilation, is announced on ``stream`` (None: silent) once it has
+    taken a second. Returns the seconds it took.
     """
     import numpy as np
 
@@ -378,11 +380,19 @@ def _load_kernels(mixture, stream: TextIO | None) -> float:
     nc = mixture.n_components
     return _announce_if_slow(
         lambda: flash(mixture, 1e6, 300.0, np.full(nc, 1.0 / nc)),
-        stream,
+        None if kernels_cached() else stream,
         "compiling the flash kernels (first use on this machine, about half a minute; later "
         "runs load them from the disk cache) ...",
         "kernels ready after {seconds:.1f} s",
     )
+
+
+def kernels_cached() -> bool:
+    """True if the disk cache holds compiled kernels of these kernel sources (numba's index
+    files, ``*.nbi``), so loading them is not a compilation."""
+    from .thermo.kernels._policy import cache_dir
+
+    return any(cache_dir().rglob("*.nbi"))
 
 
 def _announce_if_slow(
@@ -478,8 +488,11 @@ def _format_summary(summary, spec) -> str:
         f"cold {_mean(attrs.get('mean_iterations_cold_start'))})",
     ]
     if summary.blocks_computed:
+        overall = summary.cells_computed / summary.wall_time if summary.wall_time > 0 else 0.0
         lines.append(
-            f"  time: {summary.wall_time:.1f} s, {summary.cells_per_second:,.0f} cells/s on "
+            f"  time: {summary.wall_time:.1f} s = {overall:,.0f} cells/s overall "
+            f"({summary.cells_computed:,} cells); computing the chunks "
+            f"{summary.compute_seconds:.1f} s = {summary.cells_per_second:,.0f} cells/s on "
             f"{summary.workers} worker thread(s), {where}"
         )
     else:

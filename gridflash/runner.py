@@ -120,8 +120,10 @@ class RunSummary:
         Counts over the whole store (two-phase, single-phase, unconverged cells, iterations).
     wall_time : float
         Seconds this session took, cluster start-up included.
+    compute_seconds : float
+        Seconds from the first block submitted to the last one finished.
     cells_per_second : float
-        Cells computed in this session per second of computing.
+        ``cells_computed / compute_seconds``.
     workers : int
         Worker threads used.
     scheduler : str
@@ -136,6 +138,7 @@ class RunSummary:
     cells_computed: int
     stats: BlockStats
     wall_time: float
+    compute_seconds: float
     cells_per_second: float
     workers: int
     scheduler: str
@@ -305,6 +308,7 @@ def run(
         cells_computed=cells_computed,
         stats=stats,
         wall_time=session,
+        compute_seconds=compute_seconds,
         cells_per_second=cells_computed / compute_seconds if compute_seconds > 0 else 0.0,
         workers=threads,
         scheduler=address or spec.run.scheduler,

@@ -239,3 +239,52 @@ def test_installed_entry_point(tmp_path):
                            capture_output=True, text=True, timeout=120)
     assert again.returncode == 1
     assert again.stderr.startswith("Error: output ") and again.stderr.count("\n") == 1
+
+
+def test_compilation_announced_only_when_the_cache_is_empty(tmp_path, monkeypatch):
+    """A slow kernel load with compiled kernels in the disk cache is not called a compilation;
+    with an empty cache folder it is."""
+    import gridflash.thermo
+    from gridflash import cli as cli_module
+
+    def slow_flash(*args, **kwargs):
+        time.sleep(1.3)  # longer than the 1 s after which a compilation is announced
+
+    monkeypatch.setattr(gridflash.thermo, "flash", slow_flash)
+    mixture = gridflash.Mixture(["C1", "nC4"])
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "empty"))
+    assert not cli_module.kernels_cached()
+    out = io.StringIO()
+    cli_module._load_kernels(mixture, out)
+    assert out.getvalue().startswith("compiling the flash kernels")
+    folder = tmp_path / "filled" / f"gridflash-kernels-{_source_key()}" / "kernels_x"
+    folder.mkdir(parents=True)
+    (folder / "flash.flash_batch-105.py311.nbi").write_bytes(b"")  # a numba index file
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "filled"))
+    assert cli_module.kernels_cached()
+    out = io.StringIO()
+    cli_module._load_kernels(mixture, out)
+    assert out.getvalue() == ""
+
+
+def _source_key() -> str:
+    from gridflash.thermo.kernels._policy import source_key
+
+    return source_key()
+
+
+def test_summary_rates_are_cells_over_times(tmp_path):
+    """The summary's cells/s figures are the printed cell count over the printed times."""
+    config = write_config(tmp_path)
+    result = invoke("run", config)
+    assert result.exit_code == 0, result.stderr
+    match = re.search(r"time: ([\d.]+) s = ([\d,]+) cells/s overall \(([\d,]+) cells\); "
+                      r"computing the chunks ([\d.]+) s = ([\d,]+) cells/s", result.stdout)
+    assert match, result.stdout
+    wall, overall, cells, compute, rate = (float(g.replace(",", "")) for g in match.groups())
+    assert cells == 120
+    # the times are printed to 0.1 s, the rates to 1 cell/s
+    for seconds, shown in ((wall, overall), (compute, rate)):
+        low, high = cells / (seconds + 0.05), cells / max(seconds - 0.05, 1e-9)
+        assert low - 0.5 <= shown <= high + 0.5
+    assert compute <= wall
