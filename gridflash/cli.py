@@ -289,9 +289,11 @@ _EPILOG_EXPORT = """\b
 Examples:
   gridflash export configs/training_samples.zarr --out samples.parquet
   gridflash export table.zarr --out table.nc --split 0.7,0.15,0.15 --converged-only
+  gridflash export table.zarr --out table.csv
 
 \b
-Writes FILE and FILE.columns.json (every column's name, role, units and meaning).
+Writes FILE and FILE.columns.json (every column's name, role, units and meaning); a CSV
+also gets FILE.units.csv (each column's units, role and meaning, as a table).
 See docs/training.md for the columns and how the split is decided.
 """
 
@@ -310,9 +312,10 @@ def _split_option(ctx: click.Context, param: click.Parameter, value: str):
 @click.argument("store", type=click.Path(path_type=Path))
 @click.option("--out", "-o", "out", required=True, metavar="FILE",
               type=click.Path(dir_okay=False, path_type=Path),
-              help="Table to write (.parquet, or .nc for NetCDF).")
-@click.option("--format", "fmt", type=click.Choice(["parquet", "netcdf"]), default=None,
-              help="File format (default: from FILE's suffix, .nc -> netcdf; else parquet).")
+              help="Table to write: .parquet, .csv or .nc (NetCDF).")
+@click.option("--format", "fmt", type=click.Choice(["parquet", "csv", "netcdf"]), default=None,
+              help="File format (default: from FILE's suffix; refused if the suffix names "
+              "another format).")
 @click.option("--split", "split", default="0.8,0.1,0.1", show_default=True,
               metavar="TRAIN,VALIDATION,TEST", callback=_split_option,
               help="Shares of the train, validation and test splits (summing to 1).")
@@ -348,6 +351,8 @@ def export_command(
                    f"{summary.cells:,} cells{dropped}; {len(summary.columns)} columns")
         click.echo(f"  split: {counts}")
         click.echo(f"  columns described in {summary.columns_path}")
+        if summary.format == "csv":
+            click.echo(f"  units of the columns in {summary.path}.units.csv")
 
 
 def main(argv: list[str] | None = None) -> None:
