@@ -237,6 +237,8 @@ def run(
         raise InputError(f"workers={workers!r} must be a positive integer")
     path = Path(spec.run.output).expanduser().absolute()
     spec = replace(spec, run=replace(spec.run, output=path))
+    if resume and is_gridflash_store(path):
+        spec = _with_stored_chunks(spec, path)
     plan = chunk_plan(spec)
     address = scheduler_address or spec.run.scheduler_address
     exists = path.exists() or path.is_symlink()
@@ -345,6 +347,18 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
         )
     for name, (dims, shape, chunks) in stored_chunks(path).items():
         check_chunks_aligned(plan, name, dims, shape, chunks)
+
+
+def _with_stored_chunks(spec: RunSpec, path: Path) -> RunSpec:
+    """The run with the store's chunk lengths for every dimension the config leaves to the
+    defaults, so a store resumes although the default chunking changed since it was made."""
+    stored = read_root_attrs(path).get("chunks")
+    dims = chunk_plan(spec).dims
+    if not isinstance(stored, list) or len(stored) != len(dims):
+        return spec  # the resume checks say what is wrong with the store
+    given = dict(spec.run.chunks)
+    chunks = tuple((d, given.get(d, int(n))) for d, n in zip(dims, stored, strict=True))
+    return replace(spec, run=replace(spec.run, chunks=chunks))
 
 
 def _changed_keys(old_text: str, new_text: str) -> list[str]:

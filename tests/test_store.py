@@ -19,6 +19,8 @@ from gridflash.compute._sweep import slab_indices, sweep_block
 from gridflash.config._parser import load_config
 from gridflash.plan._chunks import (
     DEFAULT_CHUNK_CELLS,
+    MIN_BLOCKS,
+    MIN_CHUNK_CELLS,
     MAX_SWEEP_DEPTH,
     ChunkPlan,
     check_chunks_aligned,
@@ -57,10 +59,26 @@ def test_default_chunks_bounded_and_slab_maximal(shape, sweep):
     if shape[sweep] <= MAX_SWEEP_DEPTH and math.prod(chunks[a] for a in others) > 1:
         assert chunks[sweep] == shape[sweep]
     # ... and the non-sweep axes are only cut when a slab would exceed its share.
+    target = min(DEFAULT_CHUNK_CELLS, max(MIN_CHUNK_CELLS, -(-math.prod(shape) // MIN_BLOCKS)))
+    blocks = math.prod(-(-n // c) for n, c in zip(shape, chunks, strict=True))
+    # A mid-size or larger grid gives every worker work and progress in >= 20 steps.
+    if math.prod(shape) >= MIN_BLOCKS * MIN_CHUNK_CELLS:
+        assert blocks >= 20, (shape, chunks)
     if all(chunks[a] == shape[a] for a in others):
         return
     depth = min(shape[sweep], MAX_SWEEP_DEPTH)
-    assert math.prod(shape[a] for a in others) > DEFAULT_CHUNK_CELLS // depth
+    assert math.prod(shape[a] for a in others) > target // depth
+
+
+@pytest.mark.parametrize(("shape", "blocks"), [
+    ((25, 7, 15), 3),     # 2,625 cells: both workers of a 2-core machine busy
+    ((51, 40, 50), 42),   # 102,000 cells: >= 20 progress steps
+    ((50, 50, 50), 42),   # 125,000 cells (the runner benchmark's grid)
+    ((100, 100, 1000), 156),  # 1e7 cells: chunks of at most DEFAULT_CHUNK_CELLS
+])
+def test_default_chunks_of_the_grids_users_make(shape, blocks):
+    chunks = default_chunks(shape, 0)
+    assert math.prod(-(-n // c) for n, c in zip(shape, chunks, strict=True)) == blocks
 
 
 @settings(max_examples=60, deadline=None)
