@@ -83,6 +83,9 @@ def cli() -> None:
               help="Local workers as threads or as processes (default: run.scheduler).")
 @click.option("--no-warm-start", is_flag=True,
               help="Start every cell cold instead of from the previous slab's K-values.")
+@click.option("--max-cells", type=click.IntRange(min=1), metavar="N", default=None,
+              help="Largest grid to run, in cells (default: 1,000,000,000); a bigger one is "
+              "refused before anything is planned or written.")
 @click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")
 def run_command(
     config: Path,
@@ -93,15 +96,17 @@ def run_command(
     scheduler_address: str | None,
     threads: bool | None,
     no_warm_start: bool,
+    max_cells: int | None,
     quiet: bool,
 ) -> None:
     """Compute the grid described by the TOML file CONFIG into a zarr store."""
     if resume and overwrite:
         raise click.UsageError("--resume and --overwrite exclude each other; choose one")
     from .config._parser import load_config
-    from .runner import run
+    from .runner import DEFAULT_MAX_CELLS, check_grid_size, run
 
     spec = load_config(config)
+    check_grid_size(spec, max_cells or DEFAULT_MAX_CELLS)  # before the kernels are loaded
     options = spec.run
     if output is not None:
         options = replace(options, output=output.expanduser().absolute())
@@ -116,7 +121,8 @@ def run_command(
     show = _ProgressLine(sys.stderr) if on_terminal else None
     try:
         summary = run(spec, resume=resume, overwrite=overwrite, workers=workers,
-                      scheduler_address=scheduler_address, progress=show)
+                      scheduler_address=scheduler_address, progress=show,
+                      max_cells=max_cells or DEFAULT_MAX_CELLS)
     except KeyboardInterrupt:
         if show:
             show.close()

@@ -47,7 +47,16 @@ from .store._store import (
     write_block,
 )
 
-__all__ = ["BlockSummary", "BlockTask", "Progress", "RunSummary", "compute_block", "run"]
+__all__ = [
+    "DEFAULT_MAX_CELLS",
+    "BlockSummary",
+    "BlockTask",
+    "Progress",
+    "RunSummary",
+    "check_grid_size",
+    "compute_block",
+    "run",
+]
 
 #: Times dask re-runs a task that raised (a worker death is retried by the scheduler anyway,
 #: up to ``distributed.scheduler.allowed-failures``).
@@ -57,6 +66,10 @@ _CONNECT_TIMEOUT = 10.0
 _WORKER_TIMEOUT = 30.0
 #: Tasks in flight per worker thread (bounds the graph and the memory of finished results).
 _IN_FLIGHT_PER_THREAD = 2
+#: Largest grid run without an explicit ``max_cells`` (``--max-cells``): about 250 GB of store
+#: before compression for a 4-component fluid, and days on one machine; a bigger grid is far
+#: more often a mistyped count than a plan.
+DEFAULT_MAX_CELLS = 1_000_000_000
 
 
 @dataclass(frozen=True)
@@ -185,6 +198,7 @@ def run(
     workers: int | None = None,
     scheduler_address: str | None = None,
     progress: Callable[[Progress], None] | None = None,
+    max_cells: int = DEFAULT_MAX_CELLS,
 ) -> RunSummary:
     """Compute a whole grid into its zarr store.
 
@@ -207,6 +221,9 @@ def run(
         path must be on a filesystem they share.
     progress : callable, optional
         Called with a :class:`Progress` after every finished block.
+    max_cells : int
+        Refuse a grid of more cells than this before planning it (default
+        :data:`DEFAULT_MAX_CELLS`).
 
     Returns
     -------
@@ -221,7 +238,8 @@ def run(
     GridflashError
         The scheduler cannot be reached or has no workers; a block lost its workers too often.
     InputError
-        Both ``resume`` and ``overwrite`` are set, or ``workers`` is not a positive integer.
+        Both ``resume`` and ``overwrite`` are set, ``workers`` or ``max_cells`` is not a
+        positive integer, or the grid has more than ``max_cells`` cells.
 
     Notes
     -----
@@ -235,6 +253,7 @@ def run(
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int)
                                 or workers < 1):
         raise InputError(f"workers={workers!r} must be a positive integer")
+    check_grid_size(spec, max_cells)
     path = Path(spec.run.output).expanduser().absolute()
     spec = replace(spec, run=replace(spec.run, output=path))
     if resume and is_gridflash_store(path):
@@ -315,6 +334,42 @@ def run(
         workers=threads,
         scheduler=address or spec.run.scheduler,
     )
+
+
+def check_grid_size(spec: RunSpec, max_cells: int = DEFAULT_MAX_CELLS) -> None:
+    """Refuse a grid larger than ``max_cells`` before anything is planned or written.
+
+    Raises
+    ------
+    InputError
+        Naming the cell count, the axes, the store size it would need and the override.
+    """
+    import math
+
+    from .store._store import VARIABLES
+
+    if isinstance(max_cells, bool) or not isinstance(max_cells, int) or max_cells < 1:
+        raise InputError(f"max_cells={max_cells!r} must be a positive integer")
+    cells = math.prod(spec.shape)
+    if cells <= max_cells:
+        return
+    nc = len(spec.fluid.components)
+    per_cell = sum(np.dtype(v.dtype).itemsize * (nc if v.per_component else 1)
+                   for v in VARIABLES)
+    shape = " x ".join(f"{n:,} {d}" for n, d in zip(spec.shape, spec.dims, strict=True))
+    raise InputError(
+        f"the grid has {cells:,} cells ({shape}), more than the limit of {max_cells:,}; it "
+        f"would need about {_bytes(cells * per_cell)} of store before compression; check the "
+        f"axis counts, or raise the limit with --max-cells {cells}"
+    )
+
+
+def _bytes(n: float) -> str:
+    for unit in ("bytes", "kB", "MB", "GB", "TB"):
+        if n < 1000 or unit == "TB":
+            return f"{n:,.0f} {unit}" if unit == "bytes" else f"{n:,.1f} {unit}"
+        n /= 1000
+    return f"{n:,.1f} PB"  # pragma: no cover - the loop returns at TB
 
 
 # --------------------------------------------------------------------------------------------

@@ -288,3 +288,72 @@ def test_summary_rates_are_cells_over_times(tmp_path):
         low, high = cells / (seconds + 0.05), cells / max(seconds - 0.05, 1e-9)
         assert low - 0.5 <= shown <= high + 0.5
     assert compute <= wall
+
+
+# --------------------------------------------------------------------------------------------
+# Crash paths: each refused in one line before any work, or run to the end
+# --------------------------------------------------------------------------------------------
+
+_PSEUDO = ('{{ name = "HEAVY", tc = {tc}, tc_unit = "K", pc = 15.0, pc_unit = "bar", '
+           'omega = 0.6, mw = 250.0 }}')
+
+
+def _with_pseudo(config, tc: str) -> None:
+    text = config.read_text().replace('"nC10"]', '"nC10", ' + _PSEUDO.format(tc=tc) + "]")
+    config.write_text(text.replace("nC4 = 0.20, nC10 = 0.35", "nC4 = 0.20, nC10 = 0.30, "
+                                   "HEAVY = 0.05"))
+
+
+@pytest.mark.parametrize("tc", ["1e6", "1e300", "0.5"])
+def test_absurd_critical_temperature_refused_by_the_loader(tmp_path, tc):
+    """tc = 1e6 K used to pass the loader and fail only when the finished store was read back;
+    one validation (gridflash.Component) now refuses it before anything runs."""
+    config = write_config(tmp_path)
+    _with_pseudo(config, tc)
+    result = invoke("run", config)
+    assert result.exit_code == 1
+    assert result.stderr.count("\n") == 1 and "Traceback" not in result.stderr
+    assert "fluid.components[4].tc" in result.stderr and "outside 1..3000 K" in result.stderr
+    assert not (tmp_path / "out.zarr").exists()
+
+
+def test_every_accepted_pseudo_component_reads_back_from_the_store(tmp_path):
+    """What the loader accepts, the store reader rebuilds (a 650 K pseudo-component)."""
+    config = write_config(tmp_path)
+    _with_pseudo(config, "650.0")
+    result = invoke("run", config)
+    assert result.exit_code == 0, result.stderr
+    mixture = gridflash.mixture_from_store(tmp_path / "out.zarr")
+    assert mixture.components[4].tc == 650.0 and mixture.components[4].pc == 1.5e6
+
+
+def test_normalised_fractions_whose_sum_overflows(tmp_path):
+    """Relative amounts of 1.7e308 each (their sum overflows a double) normalise to the same
+    fractions as 1 : 1 : 1 : 1 instead of failing in every chunk."""
+    config = write_config(tmp_path)
+    text = config.read_text().replace(
+        "mole_fractions = { CO2 = 0.75, C1 = 0.22, nC4 = 0.03 }",
+        "mole_fractions = { CO2 = 1.7e308, C1 = 1.7e308, nC4 = 1.7e308, nC10 = 1.7e308 }\n"
+        "normalise = true")
+    config.write_text(text)
+    result = invoke("run", config)
+    assert result.exit_code == 0, result.stderr
+    ds = xr.open_zarr(tmp_path / "out.zarr")
+    np.testing.assert_array_equal(ds.stream_composition.values[1], [0.25] * 4)
+    assert bool(ds.converged.all())
+
+
+def test_huge_grid_refused_before_planning(tmp_path):
+    """6e9 cells (each axis count within its own limit): refused at once, in one line, with the
+    store size it would need and the override; --max-cells also lowers the limit."""
+    config = write_config(tmp_path, grid={"p_start": 20.0, "p_stop": 270.0, "p_count": 60_000,
+                                          "t_count": 1000, "c_count": 100})
+    result = invoke("run", config)
+    assert result.exit_code == 1 and result.stderr.count("\n") == 1
+    assert "6,000,000,000 cells" in result.stderr and "--max-cells 6000000000" in result.stderr
+    assert "TB of store" in result.stderr
+    assert not (tmp_path / "out.zarr").exists()
+    small = write_config(tmp_path, "small.toml")
+    limited = invoke("run", small, "--max-cells", "100")
+    assert limited.exit_code == 1 and "more than the limit of 100" in limited.stderr
+    assert invoke("run", small, "--max-cells", "120", "-q").exit_code == 0

@@ -332,3 +332,30 @@ def test_open_table_refuses_non_stores(tmp_path):
     zarr.open_group(str(tmp_path / "plain.zarr"), mode="w")
     with pytest.raises(StoreError, match="not a gridflash store"):
         gridflash.open_table(Path(tmp_path / "plain.zarr"))
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    tc=st.floats(0.1, 1e7, allow_nan=False), pc=st.floats(1e3, 2e9),
+    omega=st.floats(-1.5, 3.5), mw=st.floats(1.0, 2000.0),
+    zra=st.none() | st.floats(0.05, 0.6),
+)
+def test_what_a_component_accepts_the_store_rebuilds(tc, pc, omega, mw, zra):
+    """One validation: every component gridflash.Component (and so the config loader) accepts
+    is rebuilt from the store's records (critical volume and Rackett Z as derived), so a run can
+    never finish its chunks and then be refused by its own store reader."""
+    from types import SimpleNamespace
+
+    from gridflash.store._store import _component_records
+
+    try:
+        heavy = gridflash.Component("HEAVY", tc=tc, pc=pc, omega=omega, mw=mw, zra=zra)
+    except gridflash.InputError as exc:
+        assert len(str(exc).splitlines()) == 1
+        return
+    mixture = gridflash.Mixture(["C1", heavy])
+    spec = SimpleNamespace(fluid=SimpleNamespace(mixture=lambda: mixture))
+    attrs = {"eos": "PR78", "components": json.dumps(_component_records(spec)),
+             "kij": json.dumps(np.zeros((2, 2)).tolist())}
+    rebuilt = gridflash.mixture_from_store(attrs)
+    assert rebuilt.components[1].tc == tc and rebuilt.components[1].pc == pc
