@@ -115,7 +115,7 @@ def run_command(
     if no_warm_start:
         options = replace(options, warm_start=False)
     spec = replace(spec, run=options)
-    logging.getLogger("distributed").setLevel(logging.ERROR)
+    logging.getLogger("distributed").setLevel(logging.CRITICAL)  # failures: one line, below
     on_terminal = not quiet and sys.stderr.isatty()
     _load_kernels(spec.fluid.mixture(), sys.stderr if on_terminal else None)
     show = _ProgressLine(sys.stderr) if on_terminal else None

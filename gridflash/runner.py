@@ -31,6 +31,7 @@ from .compute._sweep import sweep_block
 from .config._spec import RunSpec
 from .plan._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from .plan._grid import block_inputs
+from .store._lock import writer_lock
 from .store._store import (
     BlockStats,
     block_stats,
@@ -256,6 +257,26 @@ def run(
     check_grid_size(spec, max_cells)
     path = Path(spec.run.output).expanduser().absolute()
     spec = replace(spec, run=replace(spec.run, output=path))
+    # One writer per store: a second run on this output is refused here, before it reads,
+    # deletes (overwrite) or writes anything.
+    with writer_lock(path):
+        return _run_locked(spec, path, started, resume=resume, overwrite=overwrite,
+                           workers=workers, scheduler_address=scheduler_address,
+                           progress=progress)
+
+
+def _run_locked(
+    spec: RunSpec,
+    path: Path,
+    started: float,
+    *,
+    resume: bool,
+    overwrite: bool,
+    workers: int | None,
+    scheduler_address: str | None,
+    progress: Callable[[Progress], None] | None,
+) -> RunSummary:
+    """:func:`run` once it holds the store's owner marker."""
     if resume and is_gridflash_store(path):
         spec = _with_stored_chunks(spec, path)
     plan = chunk_plan(spec)
@@ -457,7 +478,9 @@ def _connect(address: str | None, kind: str, n_workers: int) -> Iterator[object]
         # port instead of 8787, which another cluster may hold.
         dashboard_address="127.0.0.1:0",
         scheduler_kwargs={"dashboard": False},
-        silence_logs=logging.ERROR,
+        # Task failures come back to the driver, which reports each in one line; the workers'
+        # own "Compute Failed" logs would print every attempt's traceback on stderr first.
+        silence_logs=logging.CRITICAL,
     )
     try:
         client = Client(cluster, set_as_default=False)

@@ -357,3 +357,131 @@ def test_huge_grid_refused_before_planning(tmp_path):
     limited = invoke("run", small, "--max-cells", "100")
     assert limited.exit_code == 1 and "more than the limit of 100" in limited.stderr
     assert invoke("run", small, "--max-cells", "120", "-q").exit_code == 0
+
+
+# --------------------------------------------------------------------------------------------
+# One writer per store; creation leftovers
+# --------------------------------------------------------------------------------------------
+
+
+def _hold_lock(store) -> subprocess.Popen:
+    """Another process holding the store's owner marker (as a running `gridflash run` does)."""
+    code = ("import sys, time\nfrom gridflash.store._lock import writer_lock\n"
+            "with writer_lock(sys.argv[1]):\n    print('held', flush=True)\n    time.sleep(60)\n")
+    holder = subprocess.Popen([sys.executable, "-c", code, str(store)], stdout=subprocess.PIPE,
+                              text=True)
+    assert holder.stdout.readline().strip() == "held"
+    return holder
+
+
+@pytest.mark.parametrize("extra", [[], ["--overwrite"], ["--resume"]])
+def test_second_writer_refused_in_one_line(tmp_path, extra):
+    """While another process writes the store, a second run -- even with --overwrite -- is
+    refused in one line and leaves the store as it was."""
+    config = write_config(tmp_path)
+    assert invoke("run", config, "-q").exit_code == 0
+    store = tmp_path / "out.zarr"
+    before = sorted(p.relative_to(store) for p in store.rglob("*"))
+    holder = _hold_lock(store)
+    try:
+        result = invoke("run", config, *extra)
+    finally:
+        holder.kill()
+        holder.wait()
+    assert result.exit_code == 1, result.stdout
+    assert result.stderr.count("\n") == 1 and "Traceback" not in result.stderr
+    assert f"another gridflash run (process {holder.pid} on " in result.stderr
+    assert "is writing" in result.stderr
+    assert sorted(p.relative_to(store) for p in store.rglob("*")) == before
+    assert gridflash.open_table(store).attrs["run_state"] == "complete"
+
+
+def test_second_writer_refused_while_the_store_is_created(tmp_path):
+    """Two runs started on one new output: the one without the marker is refused in one line
+    (it used to fail with "Directory not empty")."""
+    config = write_config(tmp_path)
+    holder = _hold_lock(tmp_path / "out.zarr")
+    try:
+        result = invoke("run", config)
+    finally:
+        holder.kill()
+        holder.wait()
+    assert result.exit_code == 1 and result.stderr.count("\n") == 1
+    assert "is writing" in result.stderr and not (tmp_path / "out.zarr").exists()
+
+
+def test_marker_of_a_killed_run_is_taken_over(tmp_path):
+    """A marker left by a run killed with -9 (its process is gone) does not block the store."""
+    config = write_config(tmp_path)
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    import json
+    import socket
+
+    marker = tmp_path / ".out.zarr.writer"
+    marker.write_text(json.dumps({"host": socket.gethostname(), "pid": int(dead.stdout),
+                                  "started": "2026-01-01T00:00:00+00:00"}))
+    result = invoke("run", config, "-q")
+    assert result.exit_code == 0, result.stderr
+    assert not marker.exists()
+
+
+def test_marker_of_another_host_names_the_file_to_delete(tmp_path):
+    import json
+
+    config = write_config(tmp_path)
+    marker = tmp_path / ".out.zarr.writer"
+    marker.write_text(json.dumps({"host": "elsewhere.invalid", "pid": 1, "started": "x"}))
+    result = invoke("run", config)
+    assert result.exit_code == 1 and result.stderr.count("\n") == 1
+    assert "on elsewhere.invalid" in result.stderr and str(marker) in result.stderr
+
+
+def test_creation_leftovers_of_a_killed_run_are_removed(tmp_path):
+    """`.NAME.creating-*` folders left by a run killed while creating the store are removed by
+    the next run on that output (which holds the marker, so nobody else is creating)."""
+    config = write_config(tmp_path)
+    for suffix in ("1a2b3c4d", "deadbeef"):
+        leftover = tmp_path / f".out.zarr.creating-{suffix}"
+        leftover.mkdir()
+        (leftover / "zarr.json").write_text("{}")
+    (tmp_path / ".other.zarr.creating-1a2b3c4d").mkdir()  # another store's: left alone
+    assert invoke("run", config, "-q").exit_code == 0
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(".")) == [
+        ".other.zarr.creating-1a2b3c4d"]
+
+
+_FULL_DISK = """\
+import errno
+import os
+
+if os.environ.get("GRIDFLASH_TEST_FULL_DISK"):
+    import gridflash.runner
+
+    def _full(path, plan, block, result):
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    gridflash.runner.write_block = _full
+"""
+
+
+@pytest.mark.parametrize("scheduler", ["threads",
+                                       pytest.param("processes", marks=pytest.mark.slow)])
+def test_full_disk_is_one_line(tmp_path, scheduler):
+    """ENOSPC from every block's write (a full disk), in the driver's threads or in worker
+    processes (patched through sitecustomize, which every Python process runs): one line on
+    stderr -- no worker "Compute Failed" tracebacks before it -- and exit status 1."""
+    import os
+
+    site = tmp_path / "site"
+    site.mkdir()
+    (site / "sitecustomize.py").write_text(_FULL_DISK)
+    config = write_config(tmp_path, scheduler=scheduler)
+    env = {**os.environ, "GRIDFLASH_TEST_FULL_DISK": "1",
+           "PYTHONPATH": os.pathsep.join([str(site), *sys.path])}
+    done = subprocess.run([sys.executable, "-m", "gridflash.cli", "run", str(config)],
+                          capture_output=True, text=True, timeout=180, env=env)
+    assert done.returncode == 1
+    assert done.stderr.count("\n") == 1, done.stderr
+    assert done.stderr.startswith("Error: writing block (")
+    assert "No space left on device" in done.stderr and "--resume" in done.stderr

@@ -19,9 +19,9 @@ from gridflash.compute._sweep import slab_indices, sweep_block
 from gridflash.config._parser import load_config
 from gridflash.plan._chunks import (
     DEFAULT_CHUNK_CELLS,
+    MAX_SWEEP_DEPTH,
     MIN_BLOCKS,
     MIN_CHUNK_CELLS,
-    MAX_SWEEP_DEPTH,
     ChunkPlan,
     check_chunks_aligned,
     chunk_plan,
