@@ -301,6 +301,7 @@ def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
         "gridflash_version": __version__,
         "config_text": spec.config_text,
         "config_hash": spec.config_hash,
+        "config_canonical": spec.config_canonical,
         "eos": spec.fluid.eos,
         "components": json.dumps(_component_records(spec)),
         "kij": json.dumps([list(row) for row in spec.fluid.kij]),
