@@ -10,8 +10,7 @@ from .analysis._plot import phase_map, plot_table, property_map
 from .analysis._saturation_lines import add_saturation_lines, saturation_lines
 from .config import RunSpec, load_config, parse_config
 from .runner import RunSummary, run
-from .store._reader import open_table
-from .store._store import mixture_from_store
+from .store import mixture_from_store, open_table
 from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 
 __all__ = [

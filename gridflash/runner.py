@@ -32,7 +32,7 @@ from .compute._sweep import sweep_block
 from .config import RunSpec, changed_keys
 from .plan._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from .plan._grid import block_inputs
-from .store._store import (
+from .store import (
     BlockStats,
     block_stats,
     completed_blocks,
