@@ -14,7 +14,7 @@ from typing import Any
 import numpy as np
 
 from .._errors import StoreError
-from ..plan._chunks import ChunkPlan
+from ..plan import ChunkPlan
 from ..store import (
     BLOCK_COMPLETE,
     BlockStats,

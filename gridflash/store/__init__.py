@@ -9,6 +9,7 @@ from ._reader import (
     is_gridflash_store,
     mixture_from_store,
     open_table,
+    open_unconsolidated,
     read_root_attrs,
     stored_chunks,
 )
@@ -16,6 +17,7 @@ from ._schema import BLOCK_COMPLETE, STORE_FORMAT, VARIABLES, Variable
 from ._writer import (
     BlockStats,
     block_stats,
+    consolidate,
     create_store,
     finish_store,
     mark_block_complete,
@@ -23,6 +25,7 @@ from ._writer import (
     set_run_state,
     stored_block_stats,
     write_block,
+    write_line_variables,
 )
 
 __all__ = [
@@ -32,6 +35,7 @@ __all__ = [
     "BlockStats",
     "Variable",
     "block_stats",
+    "consolidate",
     "completed_blocks",
     "create_store",
     "finish_store",
@@ -39,10 +43,12 @@ __all__ = [
     "mark_block_complete",
     "mixture_from_store",
     "open_table",
+    "open_unconsolidated",
     "read_root_attrs",
     "remove_store",
     "set_run_state",
     "stored_block_stats",
     "stored_chunks",
     "write_block",
+    "write_line_variables",
 ]

@@ -27,7 +27,7 @@ from zarr.codecs import BloscCodec
 
 from .._version import __version__
 from ..config import RunSpec
-from ..plan._chunks import ChunkPlan
+from ..plan import ChunkPlan
 from ..thermo import FlashStatus, PhaseLabel
 
 __all__ = [
@@ -63,7 +63,7 @@ class Variable:
     name : str
         Variable name in the store.
     source : str
-        Key in :class:`gridflash.compute._sweep.BlockResult` it is copied from.
+        Key in :class:`gridflash.compute.BlockResult` it is copied from.
     dtype : str
     fill_value : object
         Zarr fill value (what an unwritten cell reads as).
