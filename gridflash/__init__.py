@@ -14,30 +14,28 @@ from ._errors import ConfigError, GridflashError, InputError, StoreError
 from ._version import __version__
 
 if TYPE_CHECKING:  # pragma: no cover - for type checkers and IDEs only
-    from .analysis._export import export_table
-    from .analysis._lookup import lookup
-    from .analysis._plot import phase_map, plot_table, property_map
-    from .analysis._saturation_lines import add_saturation_lines, saturation_lines
-    from .store._reader import open_table
-    from .store._store import mixture_from_store
+    from .analysis import (
+        add_saturation_lines,
+        export_table,
+        lookup,
+        phase_map,
+        plot_table,
+        property_map,
+        saturation_lines,
+    )
+    from .config import RunSpec, load_config, parse_config
+    from .runner import RunSummary, run
+    from .store import mixture_from_store, open_table
     from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 
 #: Public name -> module that defines it (imported on first access).
 _LAZY = {
-    "export_table": ".analysis._export",
-    "lookup": ".analysis._lookup",
-    "phase_map": ".analysis._plot",
-    "plot_table": ".analysis._plot",
-    "property_map": ".analysis._plot",
-    "add_saturation_lines": ".analysis._saturation_lines",
-    "saturation_lines": ".analysis._saturation_lines",
-    "open_table": ".store._reader",
-    "mixture_from_store": ".store._store",
-    "Component": ".thermo",
-    "FlashResult": ".thermo",
-    "FlashStatus": ".thermo",
-    "Mixture": ".thermo",
-    "flash": ".thermo",
+    **dict.fromkeys(("add_saturation_lines", "export_table", "lookup", "phase_map", "plot_table",
+                     "property_map", "saturation_lines"), ".analysis"),
+    **dict.fromkeys(("RunSpec", "load_config", "parse_config"), ".config"),
+    **dict.fromkeys(("RunSummary", "run"), ".runner"),
+    **dict.fromkeys(("mixture_from_store", "open_table"), ".store"),
+    **dict.fromkeys(("Component", "FlashResult", "FlashStatus", "Mixture", "flash"), ".thermo"),
 }
 
 __all__ = [
@@ -48,16 +46,21 @@ __all__ = [
     "GridflashError",
     "InputError",
     "Mixture",
+    "RunSpec",
+    "RunSummary",
     "StoreError",
     "add_saturation_lines",
     "export_table",
     "flash",
+    "load_config",
     "lookup",
     "mixture_from_store",
     "open_table",
     "phase_map",
     "plot_table",
+    "parse_config",
     "property_map",
+    "run",
     "saturation_lines",
     "__version__",
 ]

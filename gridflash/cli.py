@@ -102,7 +102,7 @@ def run_command(
     """Compute the grid described by the TOML file CONFIG into a zarr store."""
     if resume and overwrite:
         raise click.UsageError("--resume and --overwrite exclude each other; choose one")
-    from .config._parser import load_config
+    from .config import load_config
     from .runner import DEFAULT_MAX_CELLS, check_grid_size, run
 
     spec = load_config(config)
@@ -152,7 +152,7 @@ def inspect_command(store: Path, max_listed: int, pressure_unit: str | None,
     Pressures and temperatures are shown in the units the store's config was written in,
     unless --pressure-unit / --temperature-unit say otherwise.
     """
-    from .analysis._inspect import config_units, inspect_store
+    from .analysis import config_units, inspect_store
 
     report = inspect_store(store, max_listed=max_listed)
     p_unit, t_unit = config_units(report.attrs)
@@ -179,7 +179,7 @@ def characterise_command(config: Path, toml_out: Path | None) -> None:
     [fluid] and [streams.NAME] tables in config form, ready to paste into a config.
     """
     from ._errors import ConfigError
-    from .config._parser import load_config
+    from .config import load_config
     from .thermo import fluid_table_text, fluid_table_toml
 
     spec = load_config(config)
@@ -247,7 +247,7 @@ def plot_command(store: Path, x_axis: str, y_axis: str, at_items: tuple[str, ...
     import numpy as np
 
     from .analysis._plot import _matplotlib, parse_at, plot_table
-    from .store._reader import open_table
+    from .store import open_table
 
     _matplotlib()  # fail in one line before reading anything if matplotlib is missing
     table = open_table(store)
@@ -276,7 +276,7 @@ def saturation_command(store: Path) -> None:
     """
     import numpy as np
 
-    from .analysis._saturation_lines import add_saturation_lines
+    from .analysis import add_saturation_lines
 
     lines = add_saturation_lines(store)
     kind = lines.saturation_kind.values
@@ -345,7 +345,7 @@ def export_command(
     compositions, K-values, densities, viscosities, converged, status) and a train /
     validation / test split decided by a hash of the cell's inputs.
     """
-    from .analysis._export import export_table
+    from .analysis import export_table
 
     summary = export_table(store, out, format=fmt, split=split,  # type: ignore[arg-type]
                            converged_only=converged_only, overwrite=overwrite)
@@ -527,7 +527,7 @@ class _Units:
 
     def __init__(self, pressure: str, temperature: str) -> None:
         from ._errors import InputError
-        from .config._units import pressure_unit, temperature_unit
+        from .config import pressure_unit, temperature_unit
 
         try:
             self.pressure = pressure_unit(pressure, key="--pressure-unit")
@@ -540,7 +540,7 @@ class _Units:
         return "" if shown in ("", "1") else shown
 
     def value(self, dim: str, si_value: float) -> str:
-        from .config._units import pressure_from_pa, temperature_from_kelvin
+        from .config import pressure_from_pa, temperature_from_kelvin
 
         if dim == "pressure":
             return _plain(pressure_from_pa(si_value, self.pressure))

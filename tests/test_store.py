@@ -28,7 +28,7 @@ from gridflash.plan._chunks import (
     default_chunks,
 )
 from gridflash.plan._grid import block_inputs
-from gridflash.store._store import (
+from gridflash.store import (
     VARIABLES,
     completed_blocks,
     create_store,
@@ -346,7 +346,7 @@ def test_what_a_component_accepts_the_store_rebuilds(tc, pc, omega, mw, zra):
     never finish its chunks and then be refused by its own store reader."""
     from types import SimpleNamespace
 
-    from gridflash.store._store import _component_records
+    from gridflash.store._schema import _component_records
 
     try:
         heavy = gridflash.Component("HEAVY", tc=tc, pc=pc, omega=omega, mw=mw, zra=zra)

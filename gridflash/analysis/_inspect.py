@@ -14,8 +14,8 @@ from typing import Any
 import numpy as np
 
 from .._errors import GridflashError, StoreError
-from ..plan._chunks import ChunkPlan
-from ..store._store import (
+from ..plan import ChunkPlan
+from ..store import (
     BLOCK_COMPLETE,
     BlockStats,
     block_stats,
@@ -173,7 +173,7 @@ def config_units(attrs: dict[str, Any]) -> tuple[str, str]:
     where the stored config text does not say, e.g. a store made through the Python API)."""
     import tomllib
 
-    from ..config._units import pressure_unit, temperature_unit
+    from ..config import pressure_unit, temperature_unit
 
     try:
         doc = tomllib.loads(str(attrs.get("config_text", "")))

@@ -89,7 +89,7 @@ class Component:
                 "methane)"
             )
         # The derived constants are checked like given ones: a store records them and rebuilds
-        # the component from them (gridflash.store._store.mixture_from_store), so whatever is
+        # the component from them (gridflash.store.mixture_from_store), so whatever is
         # accepted here must be accepted there.
         vc_key = "vc" if self.vc is not None else "estimated critical volume from tc, pc, omega"
         _check_positive(self.name, "vc", self.critical_volume, "m3/mol")
