@@ -34,7 +34,7 @@ See docs/running.md for clusters and resuming.
 
 _EPILOG_INSPECT = """\b
 Examples:
-  gridflash inspect configs/volatile_oil_co2.zarr
+  gridflash inspect out/volatile_oil_co2.zarr
   gridflash inspect out.zarr --list 50
 """
 
@@ -62,7 +62,7 @@ def cli() -> None:
     \b
     Examples:
       gridflash run configs/volatile_oil_co2.toml
-      gridflash inspect configs/volatile_oil_co2.zarr
+      gridflash inspect out/volatile_oil_co2.zarr
       gridflash run --help
     """
 
@@ -290,7 +290,7 @@ def saturation_command(store: Path) -> None:
 
 _EPILOG_EXPORT = """\b
 Examples:
-  gridflash export configs/training_samples.zarr --out samples.parquet
+  gridflash export out/training_samples.zarr --out samples.parquet
   gridflash export table.zarr --out table.nc --split 0.7,0.15,0.15 --converged-only
   gridflash export table.zarr --out table.csv
 
