@@ -230,6 +230,7 @@ def test_slow_kernel_loading_is_announced():
     assert out.getvalue() == ""
 
 
+@pytest.mark.slow
 def test_installed_entry_point(tmp_path):
     """``python -m gridflash.cli`` (what the console script calls) runs and exits 0/1."""
     config = write_config(tmp_path)
@@ -466,8 +467,8 @@ if os.environ.get("GRIDFLASH_TEST_FULL_DISK"):
 """
 
 
-@pytest.mark.parametrize("scheduler", ["threads",
-                                       pytest.param("processes", marks=pytest.mark.slow)])
+@pytest.mark.slow
+@pytest.mark.parametrize("scheduler", ["threads", "processes"])
 def test_full_disk_is_one_line(tmp_path, scheduler):
     """ENOSPC from every block's write (a full disk), in the driver's threads or in worker
     processes (patched through sitecustomize, which every Python process runs): one line on
@@ -548,3 +549,20 @@ def test_fuzzed_bundled_configs_run_or_refuse_in_one_line(tmp_path, capfd, seed)
         if "is not" in result.stderr or "must be" in result.stderr:  # a config value refused
             assert f"{config}:" in result.stderr, result.stderr  # names the file (and key)
         assert "Traceback" not in result.stderr
+
+
+@pytest.mark.parametrize("args", [["--version"], ["--help"], ["run", "--help"],
+                                  ["plot", "--help"], ["export", "--help"]])
+def test_help_and_version_import_no_heavy_package(args):
+    """Start-up stays cheap: --help/--version import none of numba, dask, xarray, zarr, numpy
+    (their CPU time, about 0.07 s against 1.4 s for a full import, is measured by
+    benchmarks/bench_startup.py)."""
+    code = ("import sys\nfrom gridflash.cli import cli\n"
+            f"try:\n    cli.main(args={args!r}, prog_name='gridflash')\n"
+            "except SystemExit as exc:\n    assert exc.code == 0, exc.code\n"
+            "heavy = sorted(m for m in ('numba', 'dask', 'distributed', 'xarray', 'zarr', "
+            "'numpy', 'scipy') if m in sys.modules)\nprint('HEAVY', heavy)\n")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=60)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip().splitlines()[-1] == "HEAVY []"

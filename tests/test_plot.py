@@ -216,6 +216,7 @@ def test_property_maps_show_densities_and_viscosities(table):
     assert "vapour viscosity (mPa·s)" in colourbar_labels
 
 
+@pytest.mark.slow
 def test_plot_table_writes_the_files(table, tmp_path):
     files = plot_table(table, x="temperature", y="pressure", at={"mixing_ratio": 0.8},
                        out=tmp_path / "figs")
