@@ -106,7 +106,6 @@ def main(quick: bool = False) -> None:
         if two.any():
             pt, tt, zt = p[two], t[two], z[two]
             d2 = _median_time(partial(gridflash.flash, mix, pt, tt, zt), max(1, repeat - 2))
-            )
             print(f"  two-phase cells only        : {two.sum() / d2:10.0f} cells/s per core")
         # Warm starts slab by slab along pressure, as a run's block sweep does.
         warm = flash_slabs(mix, p, t, z, shape[1] * shape[2])
