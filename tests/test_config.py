@@ -637,3 +637,13 @@ def test_arbitrary_text_gives_config_error(text: str) -> None:
     with pytest.raises(ConfigError) as info:
         parse_config(text)
     assert len(str(info.value).splitlines()) == 1
+
+
+@pytest.mark.parametrize("path", sorted(CONFIGS.glob("*.toml")), ids=lambda p: p.stem)
+def test_bundled_configs_use_threads_and_write_beside_configs(path):
+    """The bundled examples run in worker threads (the kernels release the GIL; processes cost
+    seconds of start-up on small grids) and write to out/ beside configs/, never into it."""
+    spec = load_config(path)
+    assert spec.run.scheduler == "threads"
+    assert spec.run.output.parent == CONFIGS.parent / "out"
+    assert spec.run.output.name == f"{path.stem}.zarr"
