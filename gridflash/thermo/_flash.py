@@ -9,7 +9,7 @@ from .._errors import InputError
 from . import kernels as _k
 from ._mixture import Mixture
 from ._properties import phase_properties, single_phase_label
-from ._result import FlashResult, FlashStatus, PhaseLabel
+from ._result import FlashResult, FlashStatus, PhaseKind, PhaseLabel
 
 __all__ = ["flash"]
 
@@ -202,7 +202,12 @@ def _validate(mixture, pressure, temperature, z, k_init):
     return p, t, zz, k0
 
 
-def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
+def _flash_arrays(
+    mixture: Mixture, p, t, z, k0, chain: int = 0, *, certify: bool = True
+) -> FlashResult:
+    """The compiled flash of validated arrays. ``certify=False`` runs the path used before
+    certification existed (two Wilson trials, no test of the answer, at most two phases); it
+    exists only so that benchmarks can measure what certification costs."""
     n, nc = z.shape
     model = mixture.model
     status = np.empty(n, dtype=np.int8)
@@ -219,6 +224,10 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
     residual = np.empty(n)
     balance = np.empty(n)
     tpd = np.empty(n)
+    x2 = np.empty((n, nc))
+    beta2 = np.empty(n)
+    z_liq2 = np.empty(n)
+    cert_iters = np.empty(n, dtype=np.int32)
     use_k0 = k0 is not None
     _k.flash_batch(
         model.ac,
@@ -236,6 +245,7 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         np.ascontiguousarray(k0) if use_k0 else np.empty((1, nc)),
         use_k0,
         chain,
+        bool(certify),
         status,
         phase_count,
         beta,
@@ -250,11 +260,16 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         residual,
         balance,
         tpd,
+        x2,
+        beta2,
+        z_liq2,
+        cert_iters,
     )
 
     # Single-phase cells: labelled, and reported as the feed in the phase of their label.
     one = phase_count == 1
-    label = np.full(n, PhaseLabel.TWO_PHASE, dtype=np.int8)
+    label = np.where(phase_count == 3, PhaseLabel.THREE_PHASE, PhaseLabel.TWO_PHASE)
+    label = label.astype(np.int8)
     if one.any():
         label[one] = single_phase_label(mixture.tc, mixture.vc, z[one], t[one])
         vap_like = one & (label == PhaseLabel.VAPOUR_LIKE)
@@ -265,9 +280,11 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         x[liq_like] = z[liq_like]
         z_vap[vap_like] = z_feed[vap_like]
         z_liq[liq_like] = z_feed[liq_like]
+    kinds = _phase_kinds(mixture, t, x, y, x2)
 
     liquid = phase_properties(mixture, p, t, x, z_liq)
     vapour = phase_properties(mixture, p, t, y, z_vap)
+    second = phase_properties(mixture, p, t, x2, z_liq2)
     return FlashResult(
         phase_count=phase_count,
         vapour_fraction=beta,
@@ -284,4 +301,33 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         tpd=tpd,
         liquid=liquid,
         vapour=vapour,
+        second_liquid_fraction=beta2,
+        x2=x2,
+        liquid_kind=kinds[0],
+        vapour_kind=kinds[1],
+        second_liquid_kind=kinds[2],
+        certification_iterations=cert_iters,
+        second_liquid=second,
     )
+
+
+def _phase_kinds(mixture: Mixture, t, x, y, x2) -> tuple[NDArray[np.int8], ...]:
+    """:class:`PhaseKind` of the liquid, vapour and second-liquid slots (see its docstring)."""
+    names = mixture.names
+
+    def share(comp, name):
+        return comp[:, names.index(name)] if name in names else np.zeros(comp.shape[0])
+
+    def liquid_kind(comp):
+        kind = np.full(comp.shape[0], PhaseKind.HYDROCARBON_LIQUID, dtype=np.int8)
+        kind[share(comp, "CO2") > 0.5] = PhaseKind.CO2_RICH_LIQUID
+        kind[share(comp, "H2O") > 0.5] = PhaseKind.AQUEOUS_LIQUID
+        kind[np.isnan(comp[:, 0])] = PhaseKind.ABSENT
+        return kind
+
+    vapour = liquid_kind(y)
+    there = ~np.isnan(y[:, 0])
+    if there.any():
+        like = single_phase_label(mixture.tc, mixture.vc, y[there], t[there])
+        vapour[np.flatnonzero(there)[like == PhaseLabel.VAPOUR_LIKE]] = PhaseKind.VAPOUR
+    return liquid_kind(x), vapour, liquid_kind(x2)
