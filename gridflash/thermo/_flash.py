@@ -25,7 +25,7 @@ def flash(
     *,
     k_init: ArrayLike | None = None,
 ) -> FlashResult:
-    """Isothermal two-phase flash of a batch of cells.
+    """Isothermal flash (up to three phases, every answer certified) of a batch of cells.
 
     Parameters
     ----------
@@ -39,9 +39,9 @@ def flash(
         Components may be exactly zero.
     k_init : array_like, shape (n, nc) or (nc,), optional
         Warm-start K-values, e.g. a neighbouring cell's converged answer. Rows containing NaN are
-        started cold. A warm-started split that converges to a non-trivial two-phase answer is
-        accepted without a stability test; otherwise the cell is solved exactly as without
-        ``k_init``.
+        started cold. A warm-started split that converges to a non-trivial two-phase answer
+        skips the feed's stability test but is certified like a cold one (see Notes);
+        otherwise the cell is solved exactly as without ``k_init``.
 
     Returns
     -------
@@ -65,8 +65,26 @@ def flash(
     (Michelsen & Mollerup 2007, ch. 10: a negative tangent-plane distance guarantees a
     lower-Gibbs split with a small amount of the trial phase). A converged split whose Gibbs
     energy exceeds the feed's by more than 1e-10 (per mole, over RT) is flagged. The vapour is
-    the phase of larger Z. A cell is ``converged`` when its fugacity residual is below 1e-10
-    and its material balance below 1e-12; otherwise its ``status`` says why.
+    the phase of larger Z.
+
+    Certification: a feed the two Wilson trials call stable gets the extended stability test
+    (pure-component corner screen and near-pure trial phases, see
+    :mod:`gridflash.thermo._stability`), and a converged split is tested the same way against
+    the tangent plane of its phases (at equilibrium every phase has the same one, so the first
+    phase's ``d_i = ln x_i + ln phi_i(x)`` stands for all). A trial phase with tangent-plane
+    distance below -1e-8 means the answer is a local minimum or misses a phase: the trial
+    phase is added and the split repeated by the multiphase substitution of Michelsen (1994)
+    with a Newton finish on the Gibbs energy (:mod:`gridflash.thermo.kernels.multiphase`),
+    which drops the phases not needed (so a wrong two-phase split becomes the right two-phase
+    split, or three phases), up to three rounds. A cell is ``converged`` (status 0) when its
+    fugacity residual is below 1e-10, its material balance below 1e-12 and its phases pass this
+    test; a split that fails it is flagged ``NOT_CERTIFIED`` (e.g. four phases would coexist;
+    at most three are computed) or ``THREE_PHASE_FAILED``, never stored as converged.
+
+    Phases: up to three. ``y``/``vapour_fraction`` hold the phase of largest Z, ``x`` the
+    liquid of larger Z, ``x2``/``second_liquid_fraction`` the liquid of smallest Z (water or a
+    CO2-rich liquid are denser in moles than an oil); ``liquid_kind``, ``vapour_kind`` and
+    ``second_liquid_kind`` say what each is (:class:`PhaseKind`).
 
     The computation of each cell is compiled (:mod:`gridflash.thermo.kernels`) and does not
     depend on the other cells of the batch.
@@ -99,7 +117,8 @@ def flash_slabs(
     the neighbour of cell ``j`` of the next (e.g. one pressure after another of a grid). With
     ``warm_start``, each cell after the first slab is started from the K-values of the same cell
     of the previous slab where that cell converged to two phases, exactly as :func:`flash` with
-    ``k_init`` would be called slab by slab, but in one compiled call. Other arguments and the
+    ``k_init`` would be called slab by slab, but in one compiled call; where that cell
+    converged to three phases, from its three phases. Other arguments and the
     result are those of :func:`flash`.
     """
     _check_mixture(mixture)
@@ -246,6 +265,7 @@ def _flash_arrays(
         use_k0,
         chain,
         bool(certify),
+        _trial_gates(mixture),
         status,
         phase_count,
         beta,
@@ -309,6 +329,13 @@ def _flash_arrays(
         certification_iterations=cert_iters,
         second_liquid=second,
     )
+
+
+def _trial_gates(mixture: Mixture) -> NDArray[np.float64]:
+    """Corner tm below which each component gets a near-pure trial phase (see
+    :mod:`gridflash.thermo._stability`): every component in a mixture with water."""
+    water = "H2O" in mixture.names
+    return np.full(mixture.n_components, _k.WATER_GATE if water else _k.CORNER_GATE)
 
 
 def _phase_kinds(mixture: Mixture, t, x, y, x2) -> tuple[NDArray[np.int8], ...]:

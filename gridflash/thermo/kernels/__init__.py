@@ -45,10 +45,18 @@ from .flash import flash_batch
 from .rachford_rice import RR_MAXITER, RR_TOL, rachford_rice_batch
 from .saturation import saturation_newton_batch
 from .split import TOL_BALANCE, TOL_RESIDUAL
-from .stability import STAB_MAXITER, STAB_TOL, stability_batch
+from .stability import (
+    CORNER_GATE,
+    STAB_MAXITER,
+    STAB_TOL,
+    TM_CERTIFY,
+    WATER_GATE,
+    stability_batch,
+)
 
 __all__ = [
     "CONVERGED",
+    "CORNER_GATE",
     "GIBBS_INCREASE",
     "MAX_ITERATIONS",
     "NO_TWO_PHASE_ROOT",
@@ -70,8 +78,10 @@ __all__ = [
     "STAB_TOL",
     "TOL_BALANCE",
     "THREE_PHASE_FAILED",
+    "TM_CERTIFY",
     "TOL_RESIDUAL",
     "TRIVIAL_SOLUTION",
+    "WATER_GATE",
     "cubic_roots_batch",
     "dlnphi_batch",
     "flash_batch",

@@ -26,7 +26,7 @@ from .multiphase import multiphase_split_cell
 from .rachford_rice import MAX_PHASES
 from .split import GIBBS_TOL, NEWTON_WM, SPLIT_WS, evaluate_v, newton_cell, split_cell, xlogx
 from .stability import (
-    CORNER_GATE,
+    NEAR_PURE_REST,
     NEAR_PURE_WS,
     STAB_MAXITER,
     STAB_TOL,
@@ -120,25 +120,29 @@ def _gibbs_descent_cell(
 
 
 @kernel
-def extended_test(ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, w_out, ws, wm):
+def extended_test(
+    ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm
+):
     """The pure-component corner screen, then near-pure trial phases, of the reference phase
     ``ref``; returns (lowest tm, iterations). The lowest-tm composition is in ``w_out``."""
     nc = ref.shape[0]
     corner = np.empty(nc)
     low, which = corner_screen(ref, present, ln_phi_ref, ln_phi_pure, corner)
     tm, iters, _ = near_pure_trials(
-        ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, CORNER_GATE, w_out, ws, wm
+        ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, gate, w_out, ws, wm
     )
-    if low < TM_CERTIFY and not tm < TM_CERTIFY:
-        # The corner itself proves instability (its trial, if run, did not go lower).
-        for i in range(nc):
-            w_out[i] = 1.0 if i == which else 0.0
+    if low < tm:
+        # The corner itself is the lowest tm seen; a trial phase with every component present
+        # stands for it where no trial was run.
         tm = low
+        if not math.isfinite(w_out[0]):
+            for i in range(nc):
+                w_out[i] = 1.0 - NEAR_PURE_REST if i == which else NEAR_PURE_REST * ref[i]
     return tm, iters
 
 
 @kernel
-def certify_phases(comp, present, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, w_out, ws, wm):
+def certify_phases(comp, present, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm):
     """Stability test of a converged answer, with its first phase as the reference (at
     equilibrium every phase has the same tangent plane); returns (lowest tm, iterations)."""
     nc = comp.shape[1]
@@ -148,7 +152,7 @@ def certify_phases(comp, present, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, w_out, 
     if not math.isfinite(zr):
         return _NAN, 0
     return extended_test(
-        comp[0], present, ln_phi, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, w_out, ws, wm
+        comp[0], present, ln_phi, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm
     )
 
 
@@ -214,6 +218,7 @@ def flash_batch(
     use_k0,
     chain,
     certify,
+    gate,
     status,
     phase_count,
     beta,
@@ -239,7 +244,8 @@ def flash_batch(
     cell ``c`` from the answer of cell ``c - chain`` where that cell converged to two or three
     phases. With ``certify`` False the cell is solved the way it was before certification
     existed (two Wilson trials, no test of the answer, at most two phases): kept only to
-    measure the cost of certification.
+    measure the cost of certification. ``gate`` (nc,): the corner tm below which a component
+    gets a near-pure trial phase.
     """
     n, nc = z.shape
     sqrt_a = np.empty(nc)
@@ -368,7 +374,19 @@ def flash_batch(
             tpd[c] = tpd_c
             if stable and conclusive and certify:
                 tm_e, e_it = extended_test(
-                    zc, present, lnphi_z, sqrt_a, b_i, omk, d1, d2, lnphi_pure, w_trial, ws, wm
+                    zc,
+                    present,
+                    lnphi_z,
+                    sqrt_a,
+                    b_i,
+                    omk,
+                    d1,
+                    d2,
+                    lnphi_pure,
+                    gate,
+                    w_trial,
+                    ws,
+                    wm,
                 )
                 stab_iters[c] += e_it
                 iterations[c] += e_it
@@ -404,6 +422,41 @@ def flash_batch(
             if st == CONVERGED:
                 n_phase = 2
                 from_split = True
+            elif certify:
+                # Both two-phase routes failed: split into the two Wilson trial phases and the
+                # lowest near-pure trial phase, and let the substitution drop what is not needed.
+                tm_e, e_it = extended_test(
+                    zc,
+                    present,
+                    lnphi_z,
+                    sqrt_a,
+                    b_i,
+                    omk,
+                    d1,
+                    d2,
+                    lnphi_pure,
+                    gate,
+                    w_trial,
+                    ws,
+                    wm,
+                )
+                n_try = 3 if tm_e < TM_CERTIFY else 2
+                for i in range(nc):
+                    comp[0, i] = trials[0, i]
+                    comp[1, i] = trials[1, i]
+                    comp[2, i] = w_trial[i]
+                for k in range(MAX_PHASES):
+                    fr[k] = 1.0 / n_try
+                st_m, n_new, it_m, res_m, bal_m, g_m = multiphase_split_cell(
+                    zc, present, sqrt_a, b_i, omk, d1, d2, n_try, comp, fr
+                )
+                cert_iters[c] += e_it + it_m
+                iterations[c] += e_it + it_m
+                if st_m == CONVERGED and n_new > 1:
+                    n_phase = n_new
+                    residual[c] = res_m
+                    balance[c] = bal_m
+                    g = g_m
         if from_split:
             fr[0] = 1.0 - bt
             fr[1] = bt
@@ -417,12 +470,12 @@ def flash_batch(
             certified = False
             for _ in range(CERTIFY_ROUNDS):
                 tm_c, c_it = certify_phases(
-                    comp, present, sqrt_a, b_i, omk, d1, d2, lnphi_pure, w_trial, ws, wm
+                    comp, present, sqrt_a, b_i, omk, d1, d2, lnphi_pure, gate, w_trial, ws, wm
                 )
                 cert_iters[c] += c_it
                 iterations[c] += c_it
                 if not tm_c < TM_CERTIFY:
-                    certified = math.isfinite(tm_c)
+                    certified = not math.isnan(tm_c)
                     break
                 if n_phase == MAX_PHASES:
                     break

@@ -63,7 +63,9 @@ def phases_eos(comp, n_phase, present, sqrt_a, b_i, omk, d1, d2, ln_phi, psi, za
     components; ok False where a root or a value is not finite.
     """
     for k in range(n_phase):
-        zk, ak, bk = phase_cell(comp[k], sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, ln_phi[k], psi[k])
+        zk, ak, bk = phase_cell(
+            comp[k], sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, ln_phi[k], psi[k]
+        )
         zab[k, 0] = zk
         zab[k, 1] = ak
         zab[k, 2] = bk
@@ -153,8 +155,13 @@ def multiphase_split_cell(z, present, sqrt_a, b_i, omk, d1, d2, n_phase, comp, b
         if n_phase > 1 and res < TOL_RESIDUAL:
             bal = balance_of(z, comp, beta, n_phase)
             if bal < TOL_BALANCE:
-                return CONVERGED, n_phase, iters, res, bal, _gibbs(
-                    comp, beta, n_phase, ln_phi, present
+                return (
+                    CONVERGED,
+                    n_phase,
+                    iters,
+                    res,
+                    bal,
+                    _gibbs(comp, beta, n_phase, ln_phi, present),
                 )
         if n_phase > 1 and it >= MSS_SWITCH_AFTER:
             break
@@ -314,8 +321,10 @@ def multiphase_newton_cell(z, present, sqrt_a, b_i, omk, d1, d2, n_phase, comp, 
                     nr = moles[ref, i]
                     scale[row] = math.sqrt(nk * nr / (nk + nr))
                     rhs[row] = -scale[row] * (
-                        math.log(trial_c[k, i]) + ln_phi[k, i]
-                        - math.log(trial_c[ref, i]) - ln_phi[ref, i]
+                        math.log(trial_c[k, i])
+                        + ln_phi[k, i]
+                        - math.log(trial_c[ref, i])
+                        - ln_phi[ref, i]
                     )
                 else:
                     scale[row] = 1.0

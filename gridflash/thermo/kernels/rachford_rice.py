@@ -276,4 +276,3 @@ def multiphase_rachford_rice_cell(z, present, ln_phi, n_phase, beta, tol, maxite
             beta[k] = trial[k]
         q = q_new
     return False, maxiter
-

@@ -55,7 +55,21 @@ def _gdem(x_new, x_cur, x_prev, present, everywhere, out):
 
 @kernel
 def stability_trial(
-    z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, maxiter, early_exit, ks_out, ws, wm
+    z,
+    present,
+    ln_phi_z,
+    sqrt_a,
+    b_i,
+    omk,
+    d1,
+    d2,
+    ks0,
+    tol,
+    maxiter,
+    early_exit,
+    ks_out,
+    ws,
+    wm,
 ):
     """Iterate one trial phase (ln Ks = ln W - ln z) to a conclusion.
 
@@ -308,7 +322,8 @@ def stability_batch(
 
 # Extended test: pure-component corners and near-pure trial phases (see _stability.py).
 TM_CERTIFY = -1e-8  # a trial phase with tm below this fails the certification of an answer
-CORNER_GATE = 1.0  # near-pure trial of component i only where tm at its corner is below this
+CORNER_GATE = 0.1  # near-pure trial of component i where tm at its corner is below this ...
+WATER_GATE = 5.0  # ... or below this in a mixture that contains water
 NEAR_PURE_REST = 1e-3  # the other components' share of a near-pure start (in the feed's ratios)
 TRIAL_STATIONARY = 1e-7  # stationarity of a near-pure trial that ends at tm >= TM_CERTIFY
 NEAR_PURE_WS = 2 + TRIAL_WS
@@ -340,8 +355,8 @@ def corner_screen(ref, present, ln_phi_ref, ln_phi_pure, corner):
 def near_pure_trials(
     ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, gate, w_out, ws, wm
 ):
-    """Trial phases started near each pure component whose corner tm is below ``gate``, in
-    increasing order of that tm, until one reaches tm < TM_CERTIFY.
+    """Trial phases started near each pure component whose corner tm is below its ``gate``
+    (nc,), in increasing order of that tm, until one reaches tm < TM_CERTIFY.
 
     Returns (lowest tm, iterations, tried): the composition of the lowest-tm trial is written
     into ``w_out`` (NaN if none was tried). ``ws``: NEAR_PURE_WS rows of nc; ``wm``: TRIAL_WM
@@ -360,7 +375,7 @@ def near_pure_trials(
     while True:
         pick = -1
         for i in range(nc):
-            if present[i] and not done[i] and corner[i] < gate:
+            if present[i] and not done[i] and corner[i] < gate[i]:
                 if pick < 0 or corner[i] < corner[pick]:
                     pick = i
         if pick < 0:
@@ -371,8 +386,21 @@ def near_pure_trials(
             share = 1.0 - NEAR_PURE_REST if j == pick else NEAR_PURE_REST * ref[j]
             ks0[j] = math.log(share / ref[j]) if present[j] else 0.0
         _, tm, it = stability_trial(
-            ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, ks0, TRIAL_STATIONARY,
-            STAB_MAXITER, True, ks, tws, wm,
+            ref,
+            present,
+            ln_phi_ref,
+            sqrt_a,
+            b_i,
+            omk,
+            d1,
+            d2,
+            ks0,
+            TRIAL_STATIONARY,
+            STAB_MAXITER,
+            True,
+            ks,
+            tws,
+            wm,
         )
         iters += it
         if math.isfinite(tm) and tm < low:
