@@ -1,7 +1,8 @@
 """Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
 
-Run: ``python benchmarks/bench_runner.py [--quick] [--repeat N] [--memory]``. For each case it starts
-``gridflash run`` as a subprocess with local worker threads (the default; or processes, or one
+Run: ``python benchmarks/bench_runner.py [--quick] [--repeat N] [--memory]``. For each case it
+starts ``gridflash run`` as a subprocess with local worker threads (the default; or processes,
+or one
 worker), samples the resident memory (RSS) of the whole process tree (driver, workers,
 everything they start) every 50 ms, and prints wall time, cells/s and peak RSS; the all-workers
 and 1-worker cases, whose ratio is the scaling figure, are run ``--repeat`` times (default 3)

@@ -57,9 +57,9 @@ __all__ = [
 ]
 
 #: Fill colours of the phase states, indexed by ``phase_label`` (0 two-phase, 1 vapour-like,
-#: 2 liquid-like).
-PHASE_COLOURS: tuple[str, str, str] = ("#f2c14e", "#bfe3f0", "#7fb685")
-_PHASE_NAMES = ("two phases", "one phase, vapour-like", "one phase, liquid-like")
+#: 2 liquid-like, 3 three-phase).
+PHASE_COLOURS: tuple[str, ...] = ("#f2c14e", "#bfe3f0", "#7fb685", "#c8553d")
+_PHASE_NAMES = ("two phases", "one phase, vapour-like", "one phase, liquid-like", "three phases")
 _SATURATION_COLOUR = "#8c1c13"
 _CONTOUR_COLOUR = "#3b3b3b"
 _ABSENT_COLOUR = "#e6e6e6"
@@ -155,9 +155,9 @@ def phase_map(
     -------
     matplotlib.figure.Figure
         One axes; its first collection is the phase-state mesh at the display points (values
-        0 two-phase, 1 vapour-like, 2 liquid-like), coloured with :data:`PHASE_COLOURS`. The
-        phase boundary is a contour labelled ``"phase boundary"``; stored saturation pressures
-        in the plane are markers labelled ``"saturation pressure"``.
+        0 two-phase, 1 vapour-like, 2 liquid-like, 3 three-phase), coloured with
+        :data:`PHASE_COLOURS`. The phase boundary is a dark red line; stored saturation
+        pressures in the plane are markers labelled ``"saturation pressure"``.
 
     Raises
     ------
@@ -178,7 +178,7 @@ def phase_map(
     xs, ys = scale.convert(cut.x, field.xs), scale.convert(cut.y, field.ys)
     label = np.ma.masked_less(field.get("phase_label").astype(float), 0.0)
     ax.pcolormesh(xs, ys, label, shading="nearest", cmap=ListedColormap(PHASE_COLOURS),
-                  vmin=-0.5, vmax=2.5, rasterized=True)
+                  vmin=-0.5, vmax=len(PHASE_COLOURS) - 0.5, rasterized=True)
     handles: list[Any] = [Patch(facecolor=c, edgecolor="#888888", label=n)
                           for c, n in zip(PHASE_COLOURS, _PHASE_NAMES, strict=True)]
     if contours and "mixture" not in (cut.x, cut.y):  # no in-between along a mixture axis
@@ -324,7 +324,8 @@ def ternary_map(
     fig = figure_cls(figsize=(7.8, 6.4), dpi=100, layout="constrained")
     ax = fig.add_subplot()
     ax.tripcolor(tri, facecolors=at_faces.phase_label.astype(float),
-                 cmap=ListedColormap(PHASE_COLOURS), vmin=-0.5, vmax=2.5, rasterized=True)
+                 cmap=ListedColormap(PHASE_COLOURS), vmin=-0.5, vmax=len(PHASE_COLOURS) - 0.5,
+                 rasterized=True)
     handles: list[Any] = [Patch(facecolor=c, edgecolor="#888888", label=n)
                           for c, n in zip(PHASE_COLOURS, _PHASE_NAMES, strict=True)]
     two = at_nodes.phase_count == 2
