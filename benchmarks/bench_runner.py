@@ -2,8 +2,7 @@
 
 Run: ``python benchmarks/bench_runner.py [--quick] [--repeat N] [--memory]``. For each case it
 starts ``gridflash run`` as a subprocess with local worker threads (the default; or processes,
-or one
-worker), samples the resident memory (RSS) of the whole process tree (driver, workers,
+or one worker), samples the resident memory (RSS) of the whole process tree (driver, workers,
 everything they start) every 50 ms, and prints wall time, cells/s and peak RSS; the all-workers
 and 1-worker cases, whose ratio is the scaling figure, are run ``--repeat`` times (default 3)
 and their medians printed. Baselines measured in this same process:
