@@ -135,6 +135,7 @@ def check_cell(mix, r, c, p, t, z, *, tm_tol=-1e-7):
 # Single cells.
 
 
+@pytest.mark.slow
 def test_cold_co2_cell_wrong_local_split_is_repaired():
     # CO2 0.80 / C1 0.05 / C16 0.15 at 6.25 MPa, 287.5 K (kij CO2-C1 0.10, CO2-C16 0.10,
     # C1-C16 0.05): the split started from the Wilson trials converges to a local minimum.
@@ -169,6 +170,7 @@ def test_cold_co2_cell_wrong_local_split_is_repaired():
     assert PhaseKind.CO2_RICH_LIQUID in kinds
 
 
+@pytest.mark.slow
 def test_water_methane_decane_three_phases_against_gibbs_minimisation():
     # H2O 0.5 / C1 0.3 / nC10 0.2 at 10 MPa, 350 K, kij = 0: vapour, oil and water.
     mix = water_mixture()
@@ -262,6 +264,7 @@ def _water_cells(n, seed):
     )
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize(("system", "n"), [("co2", 10), ("water", 10)])
 def test_every_converged_cell_passes_independent_stability_test(system, n):
     mix, p, t, z = (_co2_cells if system == "co2" else _water_cells)(n, seed=11)
@@ -304,6 +307,7 @@ def test_warm_starts_equal_cold_starts_with_three_phases():
     assert warm.iterations[chained].sum() < 0.8 * cold.iterations[chained].sum()
 
 
+@pytest.mark.slow
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(
     p=st.floats(1e6, 30e6),
@@ -326,6 +330,7 @@ def test_property_water_cells_certified(p, t, w, c1):
     assert chained.second_liquid_fraction[1] == pytest.approx(r.second_liquid_fraction[1], abs=1e-8)
 
 
+@pytest.mark.slow
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(p=st.floats(4e6, 10e6), t=st.floats(280.0, 320.0), co2=st.floats(0.5, 0.95))
 def test_property_cold_co2_cells_certified(p, t, co2):
