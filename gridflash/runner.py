@@ -425,7 +425,7 @@ def _check_workers(client, path: Path, address: str | None) -> int:
 
 
 def _sees_store(path: str) -> bool:
-    import gridflash  # noqa: F401 - fails here if the worker cannot import gridflash
+    import gridflash.runner  # noqa: F401 - fails here if the worker cannot import gridflash
 
     return os.path.isfile(os.path.join(path, "zarr.json"))
 

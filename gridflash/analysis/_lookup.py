@@ -430,7 +430,7 @@ def _feeds(ds: xr.Dataset, comp_dim: str, axis: _Axis, query: NDArray[np.float64
                        dtype=float)
     if comp_dim == "mixing_ratio" and "stream_composition" in ds and ds.sizes.get("stream") == 2:
         # The mixing line of the two streams, z = (1 - r) z_first + r z_second, as the stored
-        # feeds were made (gridflash.plan._grid.mixing_line).
+        # feeds were made (gridflash.config._composition.mixing_line).
         streams = np.asarray(ds.variables["stream_composition"].transpose("stream",
                                                                           "component").values)
         nodes = _values(ds, comp_dim)

@@ -46,11 +46,10 @@ from typing import Any, NoReturn
 import numpy as np
 
 from .._errors import ConfigError, InputError
-from ..plan._grid import list_axis, mixing_axis, simplex_axis, simplex_size
-from ..plan._sampling import SEQUENCES
 from ..thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_names
+from ._composition import list_axis, mixing_axis, simplex_axis, simplex_size
 from ._heavy_end import HeavyEnd, parse_heavy_end
-from ._spec import Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec, SampleDesign
+from ._spec import SEQUENCES, Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec, SampleDesign
 from ._units import (
     PRESSURE_UNITS,
     TEMPERATURE_UNITS,

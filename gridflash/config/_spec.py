@@ -14,7 +14,18 @@ import numpy as np
 from .._types import SchedulerKind
 from ..thermo import Component, Mixture
 
-__all__ = ["Axis", "CompositionAxis", "FluidSpec", "RunOptions", "RunSpec", "SampleDesign"]
+#: The scrambled low-discrepancy sequences a sampling run may use.
+SEQUENCES: tuple[str, ...] = ("sobol", "halton")
+
+__all__ = [
+    "SEQUENCES",
+    "Axis",
+    "CompositionAxis",
+    "FluidSpec",
+    "RunOptions",
+    "RunSpec",
+    "SampleDesign",
+]
 
 
 @dataclass(frozen=True)
