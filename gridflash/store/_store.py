@@ -47,6 +47,7 @@ from ..compute._sweep import BlockResult
 from ..config._spec import RunSpec
 from ..plan._chunks import BlockId, ChunkPlan
 from ..thermo import FlashStatus, PhaseLabel
+from ..thermo._interaction_data import REFERENCES as KIJ_REFERENCES
 
 __all__ = [
     "BLOCK_COMPLETE",
@@ -304,6 +305,10 @@ def _root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
         "eos": spec.fluid.eos,
         "components": json.dumps(_component_records(spec)),
         "kij": json.dumps([list(row) for row in spec.fluid.kij]),
+        "kij_sources": json.dumps({
+            "pairs": dict(spec.fluid.kij_sources),
+            "references": dict(KIJ_REFERENCES),
+        }),
         "fluid_provenance": json.dumps(dict(spec.fluid.provenance)),
         "sweep": plan.sweep,
         "warm_start": int(spec.run.warm_start),

@@ -14,7 +14,16 @@ from ._components import Component, builtin_component
 from ._cubic import CubicModel, R, eos_constants, kappa
 from ._interaction_data import NON_HYDROCARBONS, default_pair
 
-__all__ = ["EOS_NAMES", "KIJ_ZERO_NO_DEFAULT", "Mixture", "pair_key"]
+__all__ = [
+    "EOS_NAMES",
+    "KIJ_MAX",
+    "KIJ_MIN",
+    "KIJ_ZERO_NO_DEFAULT",
+    "KIJ_ZERO_REQUESTED",
+    "KIJ_ZERO_SPELLINGS",
+    "Mixture",
+    "pair_key",
+]
 
 EOS_NAMES: tuple[str, ...] = ("PR76", "PR78", "SRK")
 
