@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from gridflash import Mixture, flash
-from gridflash.thermo import PhaseLabel, li_pseudocritical_temperature
+from gridflash.thermo import PhaseLabel
 
 
 def _single(name, t, p):
@@ -65,17 +65,99 @@ def test_liquid_viscosity_order_of_magnitude(name, coolprop_name, t, p):
     )
 
 
-def test_li_pseudocritical_temperature_formula():
-    # Li (1971): Tpc = sum z_i Vc_i Tc_i / sum z_i Vc_i; checked by hand for methane + n-decane.
+_COOLPROP = {
+    "C1": "Methane", "C2": "Ethane", "C3": "Propane", "iC4": "IsoButane", "nC4": "n-Butane",
+    "iC5": "Isopentane", "nC5": "n-Pentane", "nC6": "n-Hexane", "nC7": "n-Heptane",
+    "nC8": "n-Octane", "nC9": "n-Nonane", "nC10": "n-Decane", "CO2": "CarbonDioxide",
+    "N2": "Nitrogen", "H2S": "HydrogenSulfide", "H2O": "Water",
+}
+# CoolProp's phase names -> our label; "supercritical" (T > Tc and P > Pc) has no counterpart.
+_COOLPROP_LABEL = {
+    "gas": PhaseLabel.VAPOUR_LIKE, "supercritical_gas": PhaseLabel.VAPOUR_LIKE,
+    "liquid": PhaseLabel.LIQUID_LIKE, "supercritical_liquid": PhaseLabel.LIQUID_LIKE,
+}
+
+
+def _pure_points(coolprop_name):
+    """(T, P) on both sides of the saturation curve at Tr 0.6-0.9 (P/Psat 0.01 to 2), above the
+    critical temperature below Pc, above Pc below Tc, and dilute gas up to 6 Tc."""
+    tc = cp.PropsSI("Tcrit", coolprop_name)
+    pc = cp.PropsSI("pcrit", coolprop_name)
+    t_min, t_max = cp.PropsSI("Tmin", coolprop_name), cp.PropsSI("Tmax", coolprop_name)
+    points = []
+    for tr in (0.6, 0.7, 0.8, 0.9):
+        if tr * tc > t_min:
+            p_sat = cp.PropsSI("P", "T", tr * tc, "Q", 0, coolprop_name)
+            points += [(tr * tc, f * p_sat) for f in (0.01, 0.5, 0.9, 1.1, 2.0)]
+    points += [(1.2 * tc, 0.5 * pc), (0.95 * tc, 2.0 * pc), (min(t_max, 3 * tc), 1e4),
+               (min(t_max, 6 * tc), 1e5)]
+    return points
+
+
+@pytest.mark.parametrize("name", list(_COOLPROP))
+def test_pure_fluid_labels_match_coolprop_phase(name):
+    # Reference: CoolProp's phase (PhaseSI) from the reference equation of state of each fluid;
+    # points away from the critical point (|Tr - 1| >= 0.05 or |Pr - 1| >= 0.5).
+    points = _pure_points(_COOLPROP[name])
+    t = np.array([tp[0] for tp in points])
+    p = np.array([tp[1] for tp in points])
+    expected = [_COOLPROP_LABEL[cp.PhaseSI("T", ti, "P", pi, _COOLPROP[name])]
+                for ti, pi in points]
+    r = flash(Mixture([name]), p, t, np.ones((len(points), 1)))
+    assert r.phase_label.tolist() == expected
+    np.testing.assert_array_equal(r.vapour_fraction, (r.phase_label == 1).astype(float))
+
+
+@pytest.mark.parametrize(
+    ("names", "z", "p", "t"),
+    [
+        (["C3"], [1.0], 101325.0, 300.0),  # propane at 1 atm, 300 K: a gas (CoolProp: gas)
+        (["C1", "nC4"], [0.7, 0.3], 2e5, 300.0),  # a 3 kg/m3 gas
+        (["C1", "nC10"], [0.3, 0.7], 1e3, 460.0),  # an oil vapour at 1 kPa (0.015 kg/m3 order)
+        (["N2"], [1.0], 1e5, 760.0),  # 6 Tc: PI exceeds 1 in the dilute gas; b/V rule applies
+    ],
+)
+def test_dilute_gases_are_vapour_like(names, z, p, t):
+    r = flash(Mixture(names), p, t, z)
+    assert r.phase_count[0] == 1 and r.phase_label[0] == PhaseLabel.VAPOUR_LIKE
+    assert r.vapour_fraction[0] == 1.0 and r.vapour.mass_density[0] < 10.0
+
+
+def test_phase_identification_parameter_formula():
+    # Venkatarathnam & Oellrich (2011): PI from finite differences of P(T, V) of the same EOS
+    # (central differences, step 1e-4 relative) equals the analytic value of the kernel.
+    from gridflash.thermo.kernels.properties import pip_cell
+
     mix = Mixture(["C1", "nC10"])
-    z = np.array([0.7, 0.3])
-    expected = (0.7 * 98.6 * 190.56 + 0.3 * 624.0 * 617.7) / (0.7 * 98.6 + 0.3 * 624.0)
-    assert li_pseudocritical_temperature(mix.tc, mix.vc, z) == pytest.approx(expected, rel=1e-12)
+    m = mix.model
+    x = np.array([0.3, 0.7])
+    t, v = 400.0, 2.5e-4
+
+    def pressure(tt, vv):
+        sa = 1.0 + m.m * (1.0 - np.sqrt(tt / m.tc))
+        ai = m.ac * sa**2
+        a = x @ (m.one_minus_k * np.sqrt(np.outer(ai, ai))) @ x
+        b = x @ m.b
+        r = 8.314462618
+        return r * tt / (vv - b) - a / ((vv + m.delta1 * b) * (vv + m.delta2 * b))
+
+    ht, hv = t * 1e-4, v * 1e-4
+    p_t = (pressure(t + ht, v) - pressure(t - ht, v)) / (2 * ht)
+    p_v = (pressure(t, v + hv) - pressure(t, v - hv)) / (2 * hv)
+    p_vv = (pressure(t, v + hv) - 2 * pressure(t, v) + pressure(t, v - hv)) / hv**2
+    p_tv = (pressure(t + ht, v + hv) - pressure(t + ht, v - hv) - pressure(t - ht, v + hv)
+            + pressure(t - ht, v - hv)) / (4 * ht * hv)
+    expected = v * (p_tv / p_t - p_vv / p_v)
+    pip, packing = pip_cell(m.ac, m.m, m.b, m.tc, m.one_minus_k, m.delta1, m.delta2, t, v, x)
+    assert pip == pytest.approx(expected, rel=1e-5)
+    assert packing == pytest.approx((x @ m.b) / v, rel=1e-14)
 
 
 def test_single_phase_labels():
+    # A lean gas at 10 MPa (PI < 1) and an oil (PI > 1). The same gas at 30 MPa has PI > 1:
+    # a dense supercritical fluid is liquid-like by the phase-identification parameter.
     mix = Mixture(["C1", "nC10"])
-    r = flash(mix, [30e6, 30e6], [450.0, 300.0], [[0.95, 0.05], [0.3, 0.7]])
+    r = flash(mix, [10e6, 30e6], [450.0, 300.0], [[0.95, 0.05], [0.3, 0.7]])
     assert r.phase_count.tolist() == [1, 1]
     assert r.phase_label.tolist() == [PhaseLabel.VAPOUR_LIKE, PhaseLabel.LIQUID_LIKE]
     assert r.vapour_fraction.tolist() == [1.0, 0.0]

@@ -256,7 +256,7 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
     one = phase_count == 1
     label = np.full(n, PhaseLabel.TWO_PHASE, dtype=np.int8)
     if one.any():
-        label[one] = single_phase_label(mixture.tc, mixture.vc, z[one], t[one])
+        label[one] = single_phase_label(mixture, p[one], t[one], z[one], z_feed[one])
         vap_like = one & (label == PhaseLabel.VAPOUR_LIKE)
         liq_like = one & (label == PhaseLabel.LIQUID_LIKE)
         beta[vap_like] = 1.0

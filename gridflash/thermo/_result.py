@@ -36,8 +36,8 @@ class FlashStatus(enum.IntEnum):
 class PhaseLabel(enum.IntEnum):
     """Per-cell phase label (stored as ``phase_label``).
 
-    Single-phase cells are labelled vapour-like or liquid-like by Li's mixture pseudo-critical
-    temperature (see :mod:`gridflash.thermo._properties`).
+    Single-phase cells are labelled vapour-like or liquid-like by Venkatarathnam & Oellrich's
+    phase-identification parameter (see :func:`gridflash.thermo.single_phase_label`).
     """
 
     TWO_PHASE = 0
