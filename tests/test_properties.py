@@ -154,10 +154,10 @@ def test_phase_identification_parameter_formula():
 
 
 def test_single_phase_labels():
-    # A lean gas at 10 MPa (PI < 1) and an oil (PI > 1). The same gas at 30 MPa has PI > 1:
+    # A lean gas at 10 MPa, 500 K (PI < 1) and an oil (PI > 1). At 30 MPa the gas has PI > 1:
     # a dense supercritical fluid is liquid-like by the phase-identification parameter.
     mix = Mixture(["C1", "nC10"])
-    r = flash(mix, [10e6, 30e6], [450.0, 300.0], [[0.95, 0.05], [0.3, 0.7]])
+    r = flash(mix, [10e6, 30e6], [500.0, 300.0], [[0.95, 0.05], [0.3, 0.7]])
     assert r.phase_count.tolist() == [1, 1]
     assert r.phase_label.tolist() == [PhaseLabel.VAPOUR_LIKE, PhaseLabel.LIQUID_LIKE]
     assert r.vapour_fraction.tolist() == [1.0, 0.0]
