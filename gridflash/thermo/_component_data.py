@@ -9,9 +9,12 @@ Properties of Gases and Liquids*, 5th ed., McGraw-Hill, 2001, Appendix A, Sectio
 transcribed from memory of that table; the test suite checks each one against the ``chemicals``
 package's critical-property databases, see ``tests/test_components.py``).
 
-Rackett compressibility ``zra`` is not tabulated here: when a component gives none it is estimated
-by the Yamada-Gunn correlation (see ``_components.py``). The volume-shift parameter is derived
-from it by Peneloux's rule for the equation of state in use (see ``_volume_shift.py``).
+Volume shift: ``LIQUID_DENSITY_07`` gives each built-in component's saturated-liquid molar
+density at ``Tr = 0.7`` (``T = 0.7 tc`` with ``tc`` of ``_ROWS``); the Peneloux shift of a built-in
+component is chosen so that the equation of state in use reproduces it (see
+``_volume_shift.py``). Rackett compressibility ``zra`` is not tabulated here: for other
+components it is estimated by the Yamada-Gunn correlation (see ``_components.py``) and the shift
+derived from it by Peneloux's rule.
 """
 
 from __future__ import annotations
@@ -40,3 +43,33 @@ _ROWS: tuple[tuple[str, str, tuple[str, ...], float, float, float, float, float]
     ("n-nonane", "nC9", ("nonane",), 594.60, 22.90, 0.445, 128.258, 555.00),
     ("n-decane", "nC10", ("decane",), 617.70, 21.10, 0.490, 142.285, 624.00),
 )
+
+#: Source of ``LIQUID_DENSITY_07`` (all components but water).
+LIQUID_DENSITY_SOURCE = (
+    "Perry's Chemical Engineers' Handbook, 8th ed. (2008), Table 2-32, DIPPR equation 105 "
+    "coefficients (as distributed in the chemicals package), evaluated at 0.7 tc"
+)
+#: Source of water's value.
+WATER_DENSITY_SOURCE = (
+    "IAPWS steam tables, saturated liquid at 453.0 K (v = 0.001127 m3/kg at 180 degC, from memory)"
+)
+
+#: Saturated-liquid molar density at Tr = 0.7, mol/m3 (temperature in the comment).
+LIQUID_DENSITY_07: dict[str, float] = {
+    "N2": 26924.1,  # 88.34 K
+    "CO2": 27131.7,  # 212.88 K (the correlation extrapolated below the triple point, 216.6 K)
+    "H2S": 25217.2,  # 261.38 K
+    "H2O": 0.887e6 / 18.015,  # 453.0 K; WATER_DENSITY_SOURCE
+    "C1": 24183.2,  # 133.39 K
+    "C2": 16791.0,  # 213.72 K
+    "C3": 12421.7,  # 258.88 K
+    "iC4": 9756.5,  # 285.50 K
+    "nC4": 9874.1,  # 297.58 K
+    "iC5": 8184.4,  # 322.27 K
+    "nC5": 8171.9,  # 328.79 K
+    "nC6": 6973.5,  # 355.32 K
+    "nC7": 6068.6,  # 378.14 K
+    "nC8": 5371.2,  # 398.09 K
+    "nC9": 4803.9,  # 416.22 K
+    "nC10": 4338.9,  # 432.39 K
+}
