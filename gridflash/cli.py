@@ -98,7 +98,7 @@ def run_command(
     """Compute the grid described by the TOML file CONFIG into a zarr store."""
     if resume and overwrite:
         raise click.UsageError("--resume and --overwrite exclude each other; choose one")
-    from .config._parser import load_config
+    from .config import load_config
     from .runner import run
 
     spec = load_config(config)
@@ -137,7 +137,7 @@ def run_command(
               metavar="N", help="Unconverged cells to list individually.")
 def inspect_command(store: Path, max_listed: int) -> None:
     """Summarise the zarr store STORE: axes, phase states, unconverged cells, iterations."""
-    from .analysis._inspect import inspect_store
+    from .analysis import inspect_store
 
     click.echo(_format_report(inspect_store(store, max_listed=max_listed)))
 
@@ -161,7 +161,7 @@ def characterise_command(config: Path, toml_out: Path | None) -> None:
     [fluid] and [streams.NAME] tables in config form, ready to paste into a config.
     """
     from ._errors import ConfigError
-    from .config._parser import load_config
+    from .config import load_config
     from .thermo import fluid_table_text, fluid_table_toml
 
     spec = load_config(config)
@@ -229,7 +229,7 @@ def plot_command(store: Path, x_axis: str, y_axis: str, at_items: tuple[str, ...
     import numpy as np
 
     from .analysis._plot import _matplotlib, parse_at, plot_table
-    from .store._reader import open_table
+    from .store import open_table
 
     _matplotlib()  # fail in one line before reading anything if matplotlib is missing
     table = open_table(store)
@@ -258,7 +258,7 @@ def saturation_command(store: Path) -> None:
     """
     import numpy as np
 
-    from .analysis._saturation_lines import add_saturation_lines
+    from .analysis import add_saturation_lines
 
     lines = add_saturation_lines(store)
     kind = lines.saturation_kind.values
@@ -324,7 +324,7 @@ def export_command(
     compositions, K-values, densities, viscosities, converged, status) and a train /
     validation / test split decided by a hash of the cell's inputs.
     """
-    from .analysis._export import export_table
+    from .analysis import export_table
 
     summary = export_table(store, out, format=fmt, split=split,  # type: ignore[arg-type]
                            converged_only=converged_only, overwrite=overwrite)

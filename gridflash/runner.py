@@ -14,6 +14,7 @@ from __future__ import annotations
 import contextlib
 import functools
 import itertools
+import json
 import logging
 import os
 import time
@@ -25,13 +26,11 @@ from pathlib import Path
 import numpy as np
 
 from ._errors import GridflashError, InputError, StoreError
-from .analysis._saturation_lines import saturation_lines_part, write_saturation_lines
-from .compute._sample_sweep import sample_block
-from .compute._sweep import sweep_block
-from .config._spec import RunSpec
-from .plan._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
-from .plan._grid import block_inputs
-from .store._store import (
+from .analysis import saturation_lines
+from .compute import sample_block, sweep_block
+from .config import RunSpec, changed_keys
+from .plan import BlockId, ChunkPlan, block_inputs, check_chunks_aligned, chunk_plan
+from .store import (
     BlockStats,
     block_stats,
     completed_blocks,
@@ -39,15 +38,26 @@ from .store._store import (
     finish_store,
     is_gridflash_store,
     mark_block_complete,
+    open_unconsolidated,
     read_root_attrs,
     remove_store,
     set_run_state,
     stored_block_stats,
     stored_chunks,
     write_block,
+    write_line_variables,
 )
 
-__all__ = ["BlockSummary", "BlockTask", "Progress", "RunSummary", "compute_block", "run"]
+__all__ = [
+    "BlockSummary",
+    "BlockTask",
+    "Progress",
+    "RunSummary",
+    "compute_block",
+    "run",
+    "saturation_lines_part",
+    "saturation_step",
+]
 
 #: Times dask re-runs a task that raised (a worker death is retried by the scheduler anyway,
 #: up to ``distributed.scheduler.allowed-failures``).
@@ -277,7 +287,7 @@ def run(
             compute_seconds = time.perf_counter() - t0
         # Bubble/dew pressure per line and cricondenbars (grid tables), on the run's workers
         # (here, in as many threads as workers were asked for, when no block was left).
-        write_saturation_lines(
+        saturation_step(
             path,
             compute_parts=None if client is None else functools.partial(_lines_on_workers, client),
             threads=local_workers,
@@ -325,7 +335,7 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
     attrs = read_root_attrs(path)
     old_hash = attrs.get("config_hash")
     if old_hash != spec.config_hash:
-        keys = _changed_keys(str(attrs.get("config_text", "")), spec.config_text)
+        keys = _changed_keys(attrs.get("config_canonical"), spec.config_canonical)
         what = f"changed keys: {', '.join(keys)}" if keys else (
             f"config hash {str(old_hash)[:12]!r} in the store, {spec.config_hash[:12]!r} now")
         raise StoreError(
@@ -343,13 +353,11 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
         check_chunks_aligned(plan, name, dims, shape, chunks)
 
 
-def _changed_keys(old_text: str, new_text: str) -> list[str]:
-    from .config._parser import canonical_config, changed_keys
-
-    try:
-        return changed_keys(canonical_config(old_text), canonical_config(new_text))
-    except GridflashError:
-        return []
+def _changed_keys(stored: object, current: str) -> list[str]:
+    """Keys that differ between the canonical document stored at creation and the current one."""
+    if not isinstance(stored, str) or not stored or not current:
+        return []  # a store written before the canonical document was recorded
+    return changed_keys(json.loads(stored), json.loads(current))
 
 
 # --------------------------------------------------------------------------------------------
@@ -499,6 +507,60 @@ def _drain(
         futures.clear()
         raise
     return out
+
+
+def saturation_step(
+    path: str | os.PathLike[str],
+    *,
+    compute_parts: Callable[[str, int], list] | None = None,
+    threads: int | None = None,
+):
+    """The run's post-step: a grid store's saturation lines, computed and written into it.
+
+    By default the lines are computed here, in ``threads`` threads (default one per core). A run
+    passes ``compute_parts(path, n_compositions)``, which computes them on its workers: part
+    ``k`` of ``n`` (:func:`saturation_lines_part`, ``n`` at most ``n_compositions``) on each of
+    ``n`` worker processes, in that worker's threads. Every line and composition is computed
+    independently of the others, so the answer does not depend on the parts or threads. A store
+    without a pressure x temperature grid (a sampled table) is left as it is (returns None).
+    Returns the lines written (an ``xarray.Dataset``, see :func:`gridflash.saturation_lines`).
+    """
+    import xarray as xr
+
+    store = str(path)
+    ds = open_unconsolidated(store)
+    try:
+        dims = tuple(ds.phase_count.dims)
+        if dims[:2] != ("pressure", "temperature"):
+            return None
+        comp_dim = dims[2]
+        n_comp = ds.sizes[comp_dim]
+    finally:
+        ds.close()
+    if compute_parts is None:
+        parts = [saturation_lines_part(store, 0, 1, threads)]
+    else:
+        parts = compute_parts(store, n_comp)
+    n_parts = len(parts)
+    lines = xr.concat(parts, dim=comp_dim) if n_parts > 1 else parts[0]
+    order = np.concatenate([np.arange(k, n_comp, n_parts) for k in range(n_parts)])
+    lines = lines.isel({comp_dim: np.argsort(order)})
+    write_line_variables(store, lines)
+    return lines
+
+
+def saturation_lines_part(path: str, part: int, n_parts: int, threads: int | None = None):
+    """:func:`gridflash.saturation_lines` of part ``part`` of ``n_parts`` of a store's
+    compositions: every ``n_parts``-th composition from ``part`` on (neighbouring compositions
+    cost about the same, so interleaved parts cost alike), in ``threads`` threads (default one
+    per core). A task: reads the store, returns a small Dataset, writes nothing."""
+    ds = open_unconsolidated(path)
+    try:
+        comp_dim = ds.phase_count.dims[2]
+        table = ds.isel({comp_dim: slice(part, None, n_parts)})
+        return saturation_lines(table, threads=threads).load()
+    finally:
+        ds.close()
 
 
 def _lines_on_workers(client, path: str, n_compositions: int) -> list:

@@ -22,7 +22,7 @@ from gridflash import ConfigError, InputError, Mixture
 from gridflash.thermo import builtin_names
 from gridflash.cli import cli
 from gridflash.config._parser import load_config, parse_config
-from gridflash.store._store import mixture_from_store
+from gridflash.store import mixture_from_store
 from gridflash.thermo._interaction_data import NON_HYDROCARBONS, REFERENCES
 
 CP = pytest.importorskip("CoolProp.CoolProp")

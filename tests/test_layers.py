@@ -104,3 +104,13 @@ def test_the_check_sees_a_violation(tmp_path):
     assert "gridflash.store" in names and "xarray" in names
     assert _layer("gridflash.store._reader") == "store"
     assert _layer("gridflash.thermo._probe_for_layer_test") == "thermo"
+
+
+def test_documented_entry_points_are_exported(tmp_path):
+    """docs/config.md and docs/running.md use gridflash.load_config and gridflash.run."""
+    import gridflash
+    from gridflash import config, runner
+
+    assert gridflash.load_config is config.load_config and gridflash.run is runner.run
+    spec = gridflash.load_config(PACKAGE.parent / "configs" / "small_test.toml")
+    assert spec.shape == (5, 3, 6)

@@ -14,8 +14,8 @@ from typing import Any
 import numpy as np
 
 from .._errors import StoreError
-from ..plan._chunks import ChunkPlan
-from ..store._store import (
+from ..plan import ChunkPlan
+from ..store import (
     BLOCK_COMPLETE,
     BlockStats,
     block_stats,

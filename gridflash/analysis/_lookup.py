@@ -24,8 +24,8 @@ import xarray as xr
 from numpy.typing import ArrayLike, NDArray
 
 from .._errors import ConfigError, InputError, StoreError
-from ..config._units import pressure_to_pa, temperature_to_kelvin
-from ..store._store import VARIABLES, mixture_from_store
+from ..config import pressure_to_pa, temperature_to_kelvin
+from ..store import VARIABLES, mixture_from_store
 
 __all__ = ["DEFAULT_LOOKUP_VARIABLES", "lookup"]
 
@@ -96,7 +96,7 @@ def lookup(
         or give NaN fields (``inside`` False, ``phase_count`` 0).
     refine : bool
         Replace the interpolated answer at every ``boundary`` or ``label_change`` point by an
-        exact flash of the table's stored fluid (:func:`~gridflash.store._store.mixture_from_store`)
+        exact flash of the table's stored fluid (:func:`~gridflash.store.mixture_from_store`)
         at the point's pressure, temperature and feed, warm-started from the K-values of the
         surrounding two-phase node with the largest interpolation weight. The warm start only
         saves iterations: a warm start is kept only when it converges to a two-phase split,
@@ -263,7 +263,7 @@ def _as_table(table: xr.Dataset | str | os.PathLike[str]) -> xr.Dataset:
     if isinstance(table, xr.Dataset):
         return table
     if isinstance(table, (str, os.PathLike)):
-        from ..store._reader import open_table
+        from ..store import open_table
 
         return open_table(Path(table))
     raise InputError(

@@ -24,7 +24,7 @@ import numpy as np
 import xarray as xr
 
 from .._errors import ConfigError, GridflashError, InputError, StoreError
-from ..config._units import pressure_to_pa, pressure_unit, temperature_to_kelvin, temperature_unit
+from ..config import pressure_to_pa, pressure_unit, temperature_to_kelvin, temperature_unit
 
 __all__ = [
     "PHASE_COLOURS",
@@ -252,7 +252,7 @@ def plot_table(
     list of Path
         The files written, named ``<kind>_<y>_vs_<x>[_<dim>-<value>...].png``.
     """
-    from ..store._reader import open_table
+    from ..store import open_table
 
     unknown = [k for k in kinds if k not in PLOT_KINDS]
     if unknown:

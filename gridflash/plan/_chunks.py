@@ -15,7 +15,7 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 from .._errors import ConfigError, StoreError
-from ..config._spec import RunSpec
+from ..config import RunSpec
 
 __all__ = [
     "DEFAULT_CHUNK_CELLS",
