@@ -19,10 +19,10 @@ from click.testing import CliRunner
 
 import gridflash
 from gridflash import ConfigError, InputError, Mixture
-from gridflash.thermo import builtin_names
 from gridflash.cli import cli
 from gridflash.config._parser import load_config, parse_config
 from gridflash.store import mixture_from_store
+from gridflash.thermo import builtin_names
 from gridflash.thermo._interaction_data import NON_HYDROCARBONS, REFERENCES
 
 CP = pytest.importorskip("CoolProp.CoolProp")
@@ -112,7 +112,7 @@ _CONFIG = """
 [fluid]
 components = [
   "N2", "CO2", "C1", "nC10",
-  {{ name = "C12+", tc = 680.0, tc_unit = "K", pc = 20.0, pc_unit = "bar", omega = 0.55, mw = 170.0 }},
+  {{ name = "C12+", tc = 680, tc_unit = "K", pc = 20, pc_unit = "bar", omega = 0.55, mw = 170 }},
 ]
 {kij}
 [streams.invented_oil]
