@@ -17,6 +17,7 @@ from ._inspect import (
     AxisReport,
     StoreReport,
     UnconvergedCell,
+    config_units,
     inspect_store,
 )
 from ._lookup import (
@@ -49,6 +50,7 @@ __all__ = [
     "StoreReport",
     "UnconvergedCell",
     "add_saturation_lines",
+    "config_units",
     "export_table",
     "inspect_store",
     "lookup",

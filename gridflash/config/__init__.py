@@ -14,8 +14,10 @@ from ._units import (
     TEMPERATURE_UNITS,
     molar_volume_to_si,
     molar_volume_unit,
+    pressure_from_pa,
     pressure_to_pa,
     pressure_unit,
+    temperature_from_kelvin,
     temperature_to_kelvin,
     temperature_unit,
 )
@@ -38,8 +40,10 @@ __all__ = [
     "molar_volume_to_si",
     "molar_volume_unit",
     "parse_config",
+    "pressure_from_pa",
     "pressure_to_pa",
     "pressure_unit",
+    "temperature_from_kelvin",
     "temperature_to_kelvin",
     "temperature_unit",
 ]

@@ -4,6 +4,7 @@ provenance), a writer (chunk-aligned region writes, completion marks, resume) an
 
 from __future__ import annotations
 
+from ._lock import lock_path, writer_lock
 from ._reader import (
     completed_blocks,
     is_gridflash_store,
@@ -40,6 +41,7 @@ __all__ = [
     "create_store",
     "finish_store",
     "is_gridflash_store",
+    "lock_path",
     "mark_block_complete",
     "mixture_from_store",
     "open_table",
@@ -51,4 +53,5 @@ __all__ = [
     "stored_chunks",
     "write_block",
     "write_line_variables",
+    "writer_lock",
 ]

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from functools import cached_property
 from types import MappingProxyType
+from typing import get_args
 
 import numpy as np
 
@@ -25,7 +26,8 @@ __all__ = [
     "pair_key",
 ]
 
-EOS_NAMES: tuple[str, ...] = ("PR76", "PR78", "SRK")
+#: The equations of state by name (one list: the ``EosName`` option type).
+EOS_NAMES: tuple[str, ...] = get_args(EosName)
 
 
 class Mixture:
