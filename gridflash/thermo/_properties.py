@@ -74,8 +74,15 @@ def single_phase_label(mixture, pressure, temperature, z, z_factor) -> NDArray[n
 
     Limits. Near a critical point (pure or mixture) the label is only as good as the EOS there,
     and on either side of the ``PI = 1`` line in the supercritical region it is a convention
-    rather than a phase boundary. In the dilute-gas limit ``PI -> 1 + (B - T dB/dT) / V``
-    (second virial coefficient ``B``), which exceeds 1 above the zero-pressure Joule-Thomson
+    rather than a phase boundary: a gas compressed to about its critical density or more has
+    ``PI > 1`` and is liquid-like (methane at 300 K and 20 MPa; a lean gas of 95% methane at
+    450 K and 30 MPa). Next to an upper (retrograde) dew point of a gas condensate or a
+    CO2-rich gas at high pressure, where the bulk phase is dense but lighter than the liquid
+    that appears, the label is therefore often liquid-like. It agrees with every bubble point
+    and lower dew point of the bundled example fluids (``tests/test_properties.py``).
+
+    In the dilute-gas limit ``PI -> 1 + (B - T dB/dT) / V`` (second virial coefficient ``B``),
+    which exceeds 1 above the zero-pressure Joule-Thomson
     inversion temperature (about five times the critical temperature); so that a dilute gas is
     never called a liquid, a phase with packing fraction ``b / V < 0.1`` (below roughly 0.4 of
     the EOS critical density) is labelled vapour-like whatever its ``PI`` (a rule of this
