@@ -36,7 +36,8 @@ def co2_c16_mixture() -> Mixture:
 
 
 def water_mixture() -> Mixture:
-    return Mixture(["H2O", "C1", "nC10"])
+    # kij = 0 for every pair, as the cases below state (not the default water-hydrocarbon 0.485)
+    return Mixture(["H2O", "C1", "nC10"], kij="zero")
 
 
 def plain(mix: Mixture) -> PlainPR:

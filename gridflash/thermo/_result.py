@@ -60,8 +60,8 @@ class PhaseLabel(enum.IntEnum):
 class PhaseKind(enum.IntEnum):
     """What the phase in one slot (liquid, vapour, second liquid) of a cell is.
 
-    The vapour slot holds the phase of largest Z: VAPOUR where it is vapour-like by Li's
-    pseudo-critical temperature (the single-phase rule), else a liquid kind. A liquid is
+    The vapour slot holds the phase of largest Z: VAPOUR where it is vapour-like by the
+    phase-identification parameter (the single-phase rule), else a liquid kind. A liquid is
     AQUEOUS_LIQUID where water is more than half of it, CO2_RICH_LIQUID where carbon dioxide
     is, else HYDROCARBON_LIQUID.
     """
