@@ -13,7 +13,9 @@ from ._characterisation import (
 )
 from ._characterisation_report import fluid_table_text, fluid_table_toml
 from ._components import Component, builtin_component, builtin_names
+from ._critical import CriticalPoint, critical_point
 from ._cubic import CubicModel, cubic_roots, phase_state, reduced_parameters
+from ._envelope import EnvelopeBranch, EnvelopeStatus, PhaseEnvelope, phase_envelope
 from ._flash import flash
 from ._mixture import EOS_NAMES, Mixture
 from ._properties import (
@@ -40,22 +42,28 @@ __all__ = [
     "fluid_table_text",
     "fluid_table_toml",
     "Component",
+    "CriticalPoint",
+    "EnvelopeBranch",
+    "EnvelopeStatus",
     "CubicModel",
     "FlashResult",
     "FlashStatus",
     "Mixture",
     "PhaseLabel",
+    "PhaseEnvelope",
     "PhaseProperties",
     "RachfordRiceResult",
     "RachfordRiceStatus",
     "StabilityResult",
     "builtin_component",
     "builtin_names",
+    "critical_point",
     "cubic_roots",
     "flash",
     "lbc_viscosity",
     "li_pseudocritical_temperature",
     "peneloux_shift",
+    "phase_envelope",
     "phase_properties",
     "phase_state",
     "pure_vapour_pressure",
