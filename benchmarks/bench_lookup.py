@@ -73,7 +73,7 @@ def main() -> None:
         p = rng.uniform(table.pressure.values[0], table.pressure.values[-1], n_points)
         t = rng.uniform(table.temperature.values[0], table.temperature.values[-1], n_points)
         r = rng.uniform(0.0, 1.0, n_points)
-        mixture = gridflash.store._store.mixture_from_store(table)
+        mixture = gridflash.store._writer.mixture_from_store(table)
         z = (1.0 - r)[:, None] * OIL_8 + r[:, None] * GAS_8
         # nearest-node K-values: the warm start an exact solver would take from the table
         ip = np.abs(p[:, None] - table.pressure.values).argmin(axis=1)

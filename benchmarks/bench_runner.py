@@ -70,7 +70,7 @@ def run_case(folder: Path, shape, chunks: str, extra=()) -> dict:
     out, err = proc.communicate()
     if proc.returncode:
         raise SystemExit(f"gridflash run failed: {err}")
-    attrs = gridflash.store._store.read_root_attrs(folder / "out.zarr")
+    attrs = gridflash.store._writer.read_root_attrs(folder / "out.zarr")
     rate = re.search(r"([\d,]+) cells/s", out)
     return {
         "wall": wall,
@@ -122,7 +122,7 @@ def iterations_warm_vs_cold(folder: Path) -> tuple[float, float]:
             ],
             check=True,
         )
-        out[label] = gridflash.store._store.read_root_attrs(store)["mean_iterations"]
+        out[label] = gridflash.store._writer.read_root_attrs(store)["mean_iterations"]
     return out["warm"], out["cold"]
 
 

@@ -8,8 +8,9 @@ from .analysis._export import export_table
 from .analysis._lookup import lookup
 from .analysis._plot import phase_map, plot_table, property_map
 from .analysis._saturation_lines import add_saturation_lines, saturation_lines
-from .store._reader import open_table
-from .store._store import mixture_from_store
+from .config import RunSpec, load_config, parse_config
+from .runner import RunSummary, run
+from .store import mixture_from_store, open_table
 from .thermo import Component, FlashResult, FlashStatus, Mixture, flash
 
 __all__ = [
@@ -20,16 +21,21 @@ __all__ = [
     "GridflashError",
     "InputError",
     "Mixture",
+    "RunSpec",
+    "RunSummary",
     "StoreError",
     "add_saturation_lines",
     "export_table",
     "flash",
+    "load_config",
     "lookup",
     "mixture_from_store",
     "open_table",
     "phase_map",
     "plot_table",
+    "parse_config",
     "property_map",
+    "run",
     "saturation_lines",
     "__version__",
 ]

@@ -229,7 +229,7 @@ def plot_command(store: Path, x_axis: str, y_axis: str, at_items: tuple[str, ...
     import numpy as np
 
     from .analysis._plot import _matplotlib, parse_at, plot_table
-    from .store._reader import open_table
+    from .store import open_table
 
     _matplotlib()  # fail in one line before reading anything if matplotlib is missing
     table = open_table(store)

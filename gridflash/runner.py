@@ -14,6 +14,7 @@ from __future__ import annotations
 import contextlib
 import functools
 import itertools
+import json
 import logging
 import os
 import time
@@ -28,10 +29,10 @@ from ._errors import GridflashError, InputError, StoreError
 from .analysis._saturation_lines import saturation_lines_part, write_saturation_lines
 from .compute._sample_sweep import sample_block
 from .compute._sweep import sweep_block
-from .config._spec import RunSpec
+from .config import RunSpec, changed_keys
 from .plan._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
 from .plan._grid import block_inputs
-from .store._store import (
+from .store import (
     BlockStats,
     block_stats,
     completed_blocks,
@@ -325,7 +326,7 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
     attrs = read_root_attrs(path)
     old_hash = attrs.get("config_hash")
     if old_hash != spec.config_hash:
-        keys = _changed_keys(str(attrs.get("config_text", "")), spec.config_text)
+        keys = _changed_keys(attrs.get("config_canonical"), spec.config_canonical)
         what = f"changed keys: {', '.join(keys)}" if keys else (
             f"config hash {str(old_hash)[:12]!r} in the store, {spec.config_hash[:12]!r} now")
         raise StoreError(
@@ -343,13 +344,11 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
         check_chunks_aligned(plan, name, dims, shape, chunks)
 
 
-def _changed_keys(old_text: str, new_text: str) -> list[str]:
-    from .config._parser import canonical_config, changed_keys
-
-    try:
-        return changed_keys(canonical_config(old_text), canonical_config(new_text))
-    except GridflashError:
-        return []
+def _changed_keys(stored: object, current: str) -> list[str]:
+    """Keys that differ between the canonical document stored at creation and the current one."""
+    if not isinstance(stored, str) or not stored or not current:
+        return []  # a store written before the canonical document was recorded
+    return changed_keys(json.loads(stored), json.loads(current))
 
 
 # --------------------------------------------------------------------------------------------
@@ -425,7 +424,7 @@ def _check_workers(client, path: Path, address: str | None) -> int:
 
 
 def _sees_store(path: str) -> bool:
-    import gridflash  # noqa: F401 - fails here if the worker cannot import gridflash
+    import gridflash.runner  # noqa: F401 - fails here if the worker cannot import gridflash
 
     return os.path.isfile(os.path.join(path, "zarr.json"))
 

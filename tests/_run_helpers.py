@@ -118,8 +118,8 @@ def assert_stores_identical(a: Path, b: Path, *, ignore_attrs: tuple[str, ...] =
                 assert np.array_equal(va.values, vb.values, equal_nan=True), name
             else:
                 assert np.array_equal(va.values, vb.values), name
-    attrs_a = gridflash.store._store.read_root_attrs(a)
-    attrs_b = gridflash.store._store.read_root_attrs(b)
+    attrs_a = gridflash.store.read_root_attrs(a)
+    attrs_b = gridflash.store.read_root_attrs(b)
     assert {k: v for k, v in attrs_a.items() if k not in skip} == {
         k: v for k, v in attrs_b.items() if k not in skip
     }

@@ -21,7 +21,7 @@ import zarr
 from click.testing import CliRunner
 
 from gridflash.cli import cli
-from gridflash.store._store import VARIABLES, read_root_attrs
+from gridflash.store import VARIABLES, read_root_attrs
 
 from ._run_helpers import assert_stores_identical, write_config
 
@@ -223,7 +223,7 @@ def test_failed_write_is_one_line_and_leaves_the_run_unfinished(tmp_path, monkey
     from gridflash import StoreError
     from gridflash.config._parser import load_config
     from gridflash.runner import run
-    from gridflash.store._store import write_block
+    from gridflash.store import write_block
 
     def full_disk(path, plan, block, result):
         if block == (1, 1, 0):

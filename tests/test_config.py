@@ -27,6 +27,11 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from gridflash import ConfigError
+from gridflash.config._composition import (
+    mixing_line,
+    simplex_lattice,
+    simplex_size,
+)
 from gridflash.config._parser import (
     canonical_config,
     canonical_json,
@@ -41,12 +46,7 @@ from gridflash.config._units import (
     pressure_to_pa,
     temperature_to_kelvin,
 )
-from gridflash.plan._grid import (
-    block_inputs,
-    mixing_line,
-    simplex_lattice,
-    simplex_size,
-)
+from gridflash.plan._grid import block_inputs
 
 ROOT = Path(__file__).resolve().parents[1]
 CONFIGS = ROOT / "configs"

@@ -10,7 +10,7 @@ from scipy.interpolate import RegularGridInterpolator
 import gridflash
 from gridflash import InputError, StoreError
 from gridflash.config._parser import parse_config
-from gridflash.store._store import mixture_from_store
+from gridflash.store import mixture_from_store
 
 from ._table_helpers import BINARY_CONFIG, LIST_CONFIG, build_store
 

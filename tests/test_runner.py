@@ -15,7 +15,7 @@ import gridflash
 from gridflash import GridflashError, InputError, StoreError
 from gridflash.config._parser import load_config
 from gridflash.runner import Progress, run
-from gridflash.store._store import read_root_attrs
+from gridflash.store import read_root_attrs
 
 from ._run_helpers import (
     assert_same_phase_split,

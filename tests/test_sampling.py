@@ -37,7 +37,7 @@ from gridflash.compute._sample_sweep import wave_bounds
 from gridflash.config._parser import canonical_config, changed_keys, load_config, parse_config
 from gridflash.plan._sampling import sample_inputs, simplex_from_cube, unit_points
 from gridflash.runner import run
-from gridflash.store._store import read_root_attrs
+from gridflash.store import read_root_attrs
 
 from ._run_helpers import assert_same_phase_split, assert_stores_identical
 from ._sample_helpers import SIMPLEX, sample_config_text, write_sample_config

@@ -96,7 +96,7 @@ def test_saturation_pressure_is_the_flash_boundary(binary):
     (Closer than about 1e-8 the flash's own answer is decided by its stability threshold on a
     tangent-plane distance of order 1e-10 and need not be monotonic in pressure, so the margin
     is 1e-6: still far inside the 5-bar grid spacing.)"""
-    mixture = gridflash.store._store.mixture_from_store(binary)
+    mixture = gridflash.store.mixture_from_store(binary)
     kind = binary.saturation_kind.values
     it, ic = np.nonzero((kind == 1) | (kind == 2))
     psat = binary.saturation_pressure.values[it, ic]
@@ -117,7 +117,7 @@ def test_pure_component_end_is_the_vapour_pressure(binary):
     t = binary.temperature.values
     stored = binary.saturation_pressure.isel(mixing_ratio=0).values
     assert np.all(binary.saturation_kind.isel(mixing_ratio=0).values == 3)
-    mixture = gridflash.store._store.mixture_from_store(binary)
+    mixture = gridflash.store.mixture_from_store(binary)
     eos = pure_vapour_pressure(mixture.model, np.full(t.size, 1), t)[0]
     np.testing.assert_allclose(stored, eos, rtol=1e-12)
     reference = np.array([CP.PropsSI("P", "T", float(x), "Q", 0, "Propane") for x in t])
@@ -166,7 +166,7 @@ def test_binary_bubble_and_dew_points_against_gerg(binary):
     assert float(line.saturation_pressure) == pytest.approx(bubble, rel=PR_TOLERANCE)
     assert float(line.lower_saturation_pressure) == pytest.approx(dew, rel=PR_TOLERANCE)
     # and the stored values are the solver's own answer at those brackets
-    mixture = gridflash.store._store.mixture_from_store(binary)
+    mixture = gridflash.store.mixture_from_store(binary)
     direct, _, _ = saturation_pressure(mixture, np.array([250.0]), np.array([[0.2, 0.8]]),
                                        np.array([20e5]), np.array([30e5]))
     assert float(line.saturation_pressure) == pytest.approx(direct[0], rel=1e-9)
@@ -192,7 +192,7 @@ def test_cricondenbar_is_the_maximum_of_the_saturation_curve(binary):
     """Against a brute-force scan: the saturation pressure every 0.25 K over the grid interval
     around the maximum never exceeds the stored cricondenbar, which equals the scan's maximum
     to within the curvature over the scan step."""
-    mixture = gridflash.store._store.mixture_from_store(binary)
+    mixture = gridflash.store.mixture_from_store(binary)
     cb_t = float(binary.cricondenbar_temperature.sel(mixing_ratio=0.5))
     cb_p = float(binary.cricondenbar_pressure.sel(mixing_ratio=0.5))
     assert 290.0 < cb_t < 330.0

@@ -26,7 +26,7 @@ from gridflash.plan._chunks import (
     default_chunks,
 )
 from gridflash.plan._grid import block_inputs
-from gridflash.store._store import (
+from gridflash.store import (
     VARIABLES,
     completed_blocks,
     create_store,

@@ -46,7 +46,7 @@ import numpy as np
 import xarray as xr
 
 from .._errors import InputError, StoreError
-from ..store._reader import open_table
+from ..store import open_table
 
 __all__ = [
     "DEFAULT_SPLIT",

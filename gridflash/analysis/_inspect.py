@@ -15,7 +15,7 @@ import numpy as np
 
 from .._errors import StoreError
 from ..plan._chunks import ChunkPlan
-from ..store._store import (
+from ..store import (
     BLOCK_COMPLETE,
     BlockStats,
     block_stats,

@@ -25,7 +25,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from .._errors import ConfigError, InputError, StoreError
 from ..config._units import pressure_to_pa, temperature_to_kelvin
-from ..store._store import VARIABLES, mixture_from_store
+from ..store import VARIABLES, mixture_from_store
 
 __all__ = ["DEFAULT_LOOKUP_VARIABLES", "lookup"]
 
@@ -96,7 +96,7 @@ def lookup(
         or give NaN fields (``inside`` False, ``phase_count`` 0).
     refine : bool
         Replace the interpolated answer at every ``boundary`` or ``label_change`` point by an
-        exact flash of the table's stored fluid (:func:`~gridflash.store._store.mixture_from_store`)
+        exact flash of the table's stored fluid (:func:`~gridflash.store._writer.mixture_from_store`)
         at the point's pressure, temperature and feed, warm-started from the K-values of the
         surrounding two-phase node with the largest interpolation weight. The warm start only
         saves iterations: a warm start is kept only when it converges to a two-phase split,
@@ -263,7 +263,7 @@ def _as_table(table: xr.Dataset | str | os.PathLike[str]) -> xr.Dataset:
     if isinstance(table, xr.Dataset):
         return table
     if isinstance(table, (str, os.PathLike)):
-        from ..store._reader import open_table
+        from ..store import open_table
 
         return open_table(Path(table))
     raise InputError(
@@ -430,7 +430,7 @@ def _feeds(ds: xr.Dataset, comp_dim: str, axis: _Axis, query: NDArray[np.float64
                        dtype=float)
     if comp_dim == "mixing_ratio" and "stream_composition" in ds and ds.sizes.get("stream") == 2:
         # The mixing line of the two streams, z = (1 - r) z_first + r z_second, as the stored
-        # feeds were made (gridflash.plan._grid.mixing_line).
+        # feeds were made (gridflash.config._composition.mixing_line).
         streams = np.asarray(ds.variables["stream_composition"].transpose("stream",
                                                                           "component").values)
         nodes = _values(ds, comp_dim)

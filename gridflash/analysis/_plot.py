@@ -252,7 +252,7 @@ def plot_table(
     list of Path
         The files written, named ``<kind>_<y>_vs_<x>[_<dim>-<value>...].png``.
     """
-    from ..store._reader import open_table
+    from ..store import open_table
 
     unknown = [k for k in kinds if k not in PLOT_KINDS]
     if unknown:

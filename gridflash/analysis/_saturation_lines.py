@@ -28,7 +28,7 @@ import zarr
 from numpy.typing import NDArray
 
 from .._errors import StoreError
-from ..store._store import mixture_from_store
+from ..store import mixture_from_store
 from ..thermo import Mixture, flash, saturation_pressure
 
 __all__ = [
@@ -79,7 +79,7 @@ def saturation_lines(
         A grid table (:func:`gridflash.open_table`) with ``phase_count`` over ``pressure`` x
         ``temperature`` x the composition dimension.
     mixture : Mixture, optional
-        The fluid; default the table's own (:func:`gridflash.store._store.mixture_from_store`).
+        The fluid; default the table's own (:func:`gridflash.store._writer.mixture_from_store`).
     threads : int, optional
         Threads to solve the lines in (default: one per core). The answers do not depend on it.
 
@@ -303,7 +303,7 @@ def add_saturation_lines(path: str | os.PathLike[str]) -> xr.Dataset:
     StoreError
         Not a gridflash store, an unfinished run, or a table without a grid.
     """
-    from ..store._reader import open_table
+    from ..store import open_table
 
     store = Path(path).expanduser()
     open_table(store).close()  # the same refusals as open_table (missing, foreign, unfinished)

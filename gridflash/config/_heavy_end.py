@@ -23,6 +23,7 @@ import numpy as np
 from .._errors import ConfigError, InputError
 from ..thermo import CharacterisedFluid, Component, FluidAnalysis, PlusFraction, ScnFraction
 from ..thermo import characterise as _characterise
+from ._checks import as_float, as_int, bad, check_keys
 
 __all__ = ["HEAVY_END_KEYS", "HeavyEnd", "parse_heavy_end"]
 
@@ -72,27 +73,10 @@ class HeavyEnd:
         return tuple(sorted(items.items()))
 
 
-def _err(key: str, value: object, why: str) -> ConfigError:
-    return ConfigError(f"{key} = {value!r} {why}")
-
-
-def _number(value: object, key: str, what: str) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not np.isfinite(value):
-        raise _err(key, value, f"is not {what}")
-    return float(value)
-
-
-def _integer(value: object, key: str, low: int, high: int, what: str) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) or not low <= value <= high:
-        raise _err(key, value, f"is not {what} ({low}..{high})")
-    return int(value)
-
-
 def parse_heavy_end(
     table: object,
     light: tuple[Component, ...],
     raw_streams: object,
-    check_keys,
 ) -> HeavyEnd:
     """Validate ``[fluid.heavy_end]`` and characterise the analysed stream's heavy end.
 
@@ -104,8 +88,6 @@ def parse_heavy_end(
         The components listed in ``fluid.components``.
     raw_streams : object
         The ``streams`` value from the TOML document (read for the analysed stream).
-    check_keys : callable
-        ``check_keys(table, path, allowed)`` of the config parser (unknown keys, did-you-mean).
 
     Raises
     ------
@@ -114,7 +96,7 @@ def parse_heavy_end(
     """
     path = "fluid.heavy_end"
     if not isinstance(table, dict):
-        raise _err(path, table, "is not a table; write [fluid.heavy_end] with stream, name, ...")
+        bad(path, table, "is not a table; write [fluid.heavy_end] with stream, name, ...")
     check_keys(table, path, HEAVY_END_KEYS)
     for key in ("stream", "name", "carbon_number", "molar_mass", "specific_gravity"):
         if key not in table:
@@ -129,34 +111,34 @@ def parse_heavy_end(
         or stream not in raw_streams
     ):
         known = ", ".join(raw_streams) if isinstance(raw_streams, dict) else "none"
-        raise _err(f"{path}.stream", stream, f"is not a stream of [streams] (streams: {known})")
+        bad(f"{path}.stream", stream, f"is not a stream of [streams] (streams: {known})")
     name = table["name"]
     if not isinstance(name, str) or not name.strip():
-        raise _err(f"{path}.name", name, 'is not a label such as "C7+"')
+        bad(f"{path}.name", name, 'is not a label such as "C7+"')
     light_names = {c.name.lower() for c in light}
     if name.strip().lower() in light_names:
-        raise _err(f"{path}.name", name, "is also a name in fluid.components; pick another label")
-    n_plus = _integer(
+        bad(f"{path}.name", name, "is also a name in fluid.components; pick another label")
+    n_plus = as_int(
         table["carbon_number"],
         f"{path}.carbon_number",
         6,
         44,
         "the carbon number where the plus-fraction starts",
     )
-    mw = _number(table["molar_mass"], f"{path}.molar_mass", "a molar mass in g/mol")
-    sg = _number(
+    mw = as_float(table["molar_mass"], f"{path}.molar_mass", "a molar mass in g/mol")
+    sg = as_float(
         table["specific_gravity"],
         f"{path}.specific_gravity",
         "a specific gravity (60 degF / 60 degF)",
     )
-    max_c = _integer(
+    max_c = as_int(
         table.get("max_carbon_number", 45),
         f"{path}.max_carbon_number",
         n_plus + 1,
         200,
         "the carbon number of the last split fraction",
     )
-    n_pseudo = _integer(
+    n_pseudo = as_int(
         table.get("pseudo_components", 4),
         f"{path}.pseudo_components",
         1,
@@ -165,14 +147,14 @@ def parse_heavy_end(
     )
     correlation = table.get("correlation", "kesler-lee")
     if correlation not in _CORRELATIONS:
-        raise _err(
+        bad(
             f"{path}.correlation",
             correlation,
             f"is not one of {', '.join(map(repr, _CORRELATIONS))}",
         )
     measured_raw = table.get("measured", [])
     if not isinstance(measured_raw, list):
-        raise _err(
+        bad(
             f"{path}.measured",
             measured_raw,
             "is not a list of { carbon_number = ..., molar_mass = ..., "
@@ -182,11 +164,11 @@ def parse_heavy_end(
     for i, cut in enumerate(measured_raw):
         key = f"{path}.measured[{i}]"
         if not isinstance(cut, dict):
-            raise _err(key, cut, "is not a { carbon_number = ..., ... } table")
+            bad(key, cut, "is not a { carbon_number = ..., ... } table")
         check_keys(cut, key, _MEASURED_KEYS)
         if "carbon_number" not in cut:
             raise ConfigError(f"{key}.carbon_number is missing; name the cut's carbon number")
-        n = _integer(
+        n = as_int(
             cut["carbon_number"],
             f"{key}.carbon_number",
             6,
@@ -195,11 +177,11 @@ def parse_heavy_end(
         )
         entry: dict[str, Any] = {"carbon_number": n}
         if "molar_mass" in cut:
-            entry["molar_mass"] = _number(
+            entry["molar_mass"] = as_float(
                 cut["molar_mass"], f"{key}.molar_mass", "a molar mass in g/mol"
             )
         if "specific_gravity" in cut:
-            entry["specific_gravity"] = _number(
+            entry["specific_gravity"] = as_float(
                 cut["specific_gravity"], f"{key}.specific_gravity", "a specific gravity"
             )
         measured.append(entry)
@@ -210,7 +192,7 @@ def parse_heavy_end(
     raw = raw_streams[stream]
     fractions = raw.get("mole_fractions") if isinstance(raw, dict) else None
     if not isinstance(fractions, dict):
-        raise _err(
+        bad(
             skey,
             fractions,
             "must be a table by name (light components and "
@@ -225,16 +207,16 @@ def parse_heavy_end(
 
     def frac(label: str) -> float:
         v = lowered.get(label.lower(), 0.0)
-        return _number(v, f"{skey}.{label}", "a mole fraction")
+        return as_float(v, f"{skey}.{label}", "a mole fraction")
 
-    total = sum(_number(v, f"{skey}.{k}", "a mole fraction") for k, v in fractions.items())
+    total = sum(as_float(v, f"{skey}.{k}", "a mole fraction") for k, v in fractions.items())
     scale = total if (isinstance(raw, dict) and raw.get("normalise") is True) else 1.0
     light_pairs = []
     for comp in light:
         v = 0.0
         for k, val in fractions.items():
             if k.strip().lower() == comp.name.lower():
-                v = _number(val, f"{skey}.{k}", "a mole fraction")
+                v = as_float(val, f"{skey}.{k}", "a mole fraction")
         light_pairs.append((comp, v / scale))
     scn = tuple(
         ScnFraction(

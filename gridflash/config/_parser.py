@@ -1,4 +1,4 @@
-"""Read a run description (TOML) into a validated, immutable :class:`~gridflash.config._spec.RunSpec`.
+"""Read a run description (TOML) into a validated, immutable :class:`~.RunSpec`.
 
 The key reference is ``docs/config.md``; the annotated examples are in ``configs/``. In short::
 
@@ -35,22 +35,34 @@ from __future__ import annotations
 import difflib
 import hashlib
 import json
-import math
 import os
 import re
-import tomllib
-from collections.abc import Mapping
 from pathlib import Path
 from typing import Any, NoReturn
 
 import numpy as np
 
 from .._errors import ConfigError, InputError
-from ..plan._grid import list_axis, mixing_axis, simplex_axis, simplex_size
-from ..plan._sampling import SEQUENCES
 from ..thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_names
+from ._checks import (
+    as_bool,
+    as_float,
+    as_int,
+    as_list,
+    as_str,
+    as_table,
+    bad,
+    check_keys,
+    choice,
+    join_key,
+    missing,
+    one_line,
+)
+from ._composition import list_axis, mixing_axis, simplex_axis, simplex_size
+from ._fingerprint import canonical_json, changed_keys
 from ._heavy_end import HeavyEnd, parse_heavy_end
-from ._spec import Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec, SampleDesign
+from ._spec import SEQUENCES, Axis, CompositionAxis, FluidSpec, RunOptions, RunSpec, SampleDesign
+from ._toml import load_toml
 from ._units import (
     PRESSURE_UNITS,
     TEMPERATURE_UNITS,
@@ -105,9 +117,6 @@ EXECUTION_KEYS = ("output", "workers", "scheduler", "scheduler_address")
 _SCHEDULERS = ("threads", "processes")
 _AXIS_CONFIG_NAMES = ("pressure", "temperature", "composition")
 
-_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
-_TOML_POSITION = re.compile(r"\s*\(at line (\d+), column (\d+)\)\s*$")
-_TOML_END = re.compile(r"\s*\(at end of document\)\s*$")
 
 
 # --------------------------------------------------------------------------------------------
@@ -204,155 +213,6 @@ def canonical_config(text: str, *, source: str = "<string>") -> dict[str, Any]:
     return canonical
 
 
-def canonical_json(canonical: Mapping[str, Any]) -> str:
-    """Compact JSON with sorted keys of a canonical document; ``config_hash`` is its SHA-256."""
-    return json.dumps(
-        canonical, sort_keys=True, separators=(",", ":"), ensure_ascii=True, allow_nan=False
-    )
-
-
-def changed_keys(old_canonical: Mapping[str, Any], new_canonical: Mapping[str, Any]) -> list[str]:
-    """Dotted keys whose values differ between two canonical documents.
-
-    Parameters
-    ----------
-    old_canonical, new_canonical : mapping
-        Documents from :func:`canonical_config` (or ``json.loads`` of :func:`canonical_json`).
-
-    Returns
-    -------
-    list of str
-        Sorted dotted keys, e.g. ``["pressure.count", "streams.gas.mole_fractions.CO2"]``; a key
-        present in only one document is listed; lists of different lengths are listed as a whole,
-        lists of equal length element by element (``"pressure.values[3]"``). Empty when the
-        documents are equal.
-    """
-    out: list[str] = []
-    _diff(old_canonical, new_canonical, "", out)
-    return sorted(out)
-
-
-# --------------------------------------------------------------------------------------------
-# Small helpers: keys, messages, type checks
-# --------------------------------------------------------------------------------------------
-
-
-def _join(path: str, key: str) -> str:
-    """Dotted TOML key of ``key`` inside ``path``, quoting keys that are not bare TOML keys."""
-    part = key if _BARE_KEY.match(key) else json.dumps(key)
-    return f"{path}.{part}" if path else part
-
-
-def _show(value: object) -> str:
-    text = repr(value)
-    return text if len(text) <= 80 else text[:77] + "..."
-
-
-def _one_line(message: str) -> str:
-    return " ".join(part.strip() for part in message.splitlines() if part.strip())
-
-
-def _bad(key: str, value: object, why: str) -> NoReturn:
-    raise ConfigError(f"{key} = {_show(value)} {why}")
-
-
-def _missing(key: str, what: str) -> NoReturn:
-    raise ConfigError(f"missing required key {key}: {what}")
-
-
-def _check_keys(table: Mapping[str, Any], path: str, allowed: tuple[str, ...]) -> None:
-    for key in table:
-        if key not in allowed:
-            close = difflib.get_close_matches(str(key), allowed, n=1, cutoff=0.6)
-            hint = f" (did you mean {_join(path, close[0])}?)" if close else ""
-            where = f"[{path}]" if path else "the top level"
-            raise ConfigError(
-                f"unknown key {_join(path, str(key))}{hint}; allowed keys in {where}: "
-                f"{', '.join(allowed)}"
-            )
-
-
-def _is_number(value: object) -> bool:
-    return isinstance(value, (int, float)) and not isinstance(value, bool)
-
-
-def _float(value: object, key: str, what: str = "a number") -> float:
-    if not _is_number(value):
-        _bad(key, value, f"is not a number; expected {what}")
-    try:
-        out = float(value)  # type: ignore[arg-type]
-    except OverflowError:
-        out = math.inf
-    if not math.isfinite(out):
-        _bad(key, value, f"is not finite; expected {what}")
-    return out
-
-
-def _int(value: object, key: str, low: int, high: int | None, what: str) -> int:
-    span = f"{low} to {high}" if high is not None else f"at least {low}"
-    if isinstance(value, bool) or not isinstance(value, int):
-        _bad(key, value, f"is not an integer; expected {what} ({span})")
-    if value < low or (high is not None and value > high):
-        _bad(key, value, f"is out of range; expected {what} ({span})")
-    return int(value)
-
-
-def _str(value: object, key: str, what: str) -> str:
-    if not isinstance(value, str) or not value.strip():
-        _bad(key, value, f"is not a non-empty string; expected {what}")
-    return value
-
-
-def _choice(value: object, key: str, choices: tuple[str, ...], *, fold_case: bool = False) -> str:
-    if isinstance(value, str):
-        if value in choices:
-            return value
-        if fold_case:
-            for choice in choices:
-                if choice.lower() == value.strip().lower():
-                    return choice
-    close = (
-        difflib.get_close_matches(value, choices, n=1, cutoff=0.5) if isinstance(value, str) else []
-    )
-    hint = f" (did you mean {close[0]!r}?)" if close else ""
-    _bad(key, value, f"is not allowed{hint}; choose one of {', '.join(map(repr, choices))}")
-
-
-def _bool(value: object, key: str) -> bool:
-    if not isinstance(value, bool):
-        _bad(key, value, "is not a boolean; write true or false (no quotes)")
-    return value
-
-
-def _table(value: object, key: str, what: str) -> dict[str, Any]:
-    if not isinstance(value, dict):
-        _bad(key, value, f"is not a table; expected {what}")
-    return value
-
-
-def _list(value: object, key: str, what: str) -> list[Any]:
-    if not isinstance(value, list):
-        _bad(key, value, f"is not a list; expected {what}")
-    if not value:
-        _bad(key, value, f"is empty; expected {what}")
-    return value
-
-
-def _diff(old: object, new: object, path: str, out: list[str]) -> None:
-    if isinstance(old, Mapping) and isinstance(new, Mapping):
-        for key in sorted(set(old) | set(new), key=str):
-            child = _join(path, str(key))
-            if key not in old or key not in new:
-                out.append(child)
-            else:
-                _diff(old[key], new[key], child, out)
-    elif isinstance(old, list) and isinstance(new, list) and len(old) == len(new):
-        for i, (a, b) in enumerate(zip(old, new, strict=True)):
-            _diff(a, b, f"{path}[{i}]", out)
-    elif type(old) is not type(new) or old != new:
-        out.append(path or "<document>")
-
-
 # --------------------------------------------------------------------------------------------
 # The parser
 # --------------------------------------------------------------------------------------------
@@ -362,32 +222,10 @@ def _parse_with_source(
     text: object, source: str, base_dir: str | os.PathLike[str] | None
 ) -> tuple[RunSpec, dict[str, Any]]:
     try:
-        return _Parser(text, base_dir).run()
+        return _Parser(text, base_dir).parse()
     except ConfigError as exc:
         prefix = f"{source}: " if source else ""
-        raise ConfigError(_one_line(f"{prefix}{exc}")) from None
-
-
-def _load_toml(text: object) -> dict[str, Any]:
-    if not isinstance(text, str):
-        raise ConfigError(f"config text must be a str, got {type(text).__name__}")
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        message = str(exc)
-        match = _TOML_POSITION.search(message)
-        if match:
-            where = f"line {match.group(1)}, column {match.group(2)}"
-            what = message[: match.start()]
-        else:
-            end = _TOML_END.search(message)
-            what = message[: end.start()] if end else message
-            where = f"line {max(1, len(text.splitlines()))} (end of document)"
-        raise ConfigError(
-            f"malformed TOML at {where}: {what}; see https://toml.io for the syntax"
-        ) from None
-    except RecursionError:
-        raise ConfigError("malformed TOML at line 1: arrays or tables nested too deeply") from None
+        raise ConfigError(one_line(f"{prefix}{exc}")) from None
 
 
 class _Parser:
@@ -401,16 +239,16 @@ class _Parser:
 
     # -- top level --------------------------------------------------------------------------
 
-    def run(self) -> tuple[RunSpec, dict[str, Any]]:
-        doc = _load_toml(self.text)
+    def parse(self) -> tuple[RunSpec, dict[str, Any]]:
+        doc = load_toml(self.text)
         self.doc = doc
-        _check_keys(doc, "", (*_TOP_KEYS, "sampling"))
+        check_keys(doc, "", (*_TOP_KEYS, "sampling"))
         for key in _TOP_KEYS:
             if key not in doc:
-                _missing(key, f"add a [{key}] table (see docs/config.md)")
-            _table(doc[key], key, f"a [{key}] table")
+                missing(key, f"add a [{key}] table (see docs/config.md)")
+            as_table(doc[key], key, f"a [{key}] table")
         if "sampling" in doc:
-            sampling = _table(doc["sampling"], "sampling", "a [sampling] table")
+            sampling = as_table(doc["sampling"], "sampling", "a [sampling] table")
             self.sampling = self._sampling(sampling)
         fluid = self._fluid(doc["fluid"])
         streams = self._streams(doc["streams"])
@@ -418,7 +256,7 @@ class _Parser:
         temperature = self._temperature(doc["temperature"])
         composition = self._composition(doc["composition"], streams)
         design = self._design(streams, pressure, temperature, composition)
-        options = self._run(doc["run"], pressure, temperature, composition)
+        options = self._run_options(doc["run"], pressure, temperature, composition)
         canonical = self.canonical
         text = canonical_json(canonical)
         spec = RunSpec(
@@ -430,6 +268,7 @@ class _Parser:
             run=options,
             config_text=str(self.text),
             config_hash=hashlib.sha256(text.encode("ascii")).hexdigest(),
+            config_canonical=text,
             sampling=design,
             heavy_end=self.heavy,
         )
@@ -438,14 +277,14 @@ class _Parser:
     # -- fluid -------------------------------------------------------------------------------
 
     def _fluid(self, table: dict[str, Any]) -> FluidSpec:
-        _check_keys(table, "fluid", _FLUID_KEYS)
-        eos = _choice(table.get("eos", "PR78"), "fluid.eos", EOS_NAMES, fold_case=True)
+        check_keys(table, "fluid", _FLUID_KEYS)
+        eos = choice(table.get("eos", "PR78"), "fluid.eos", EOS_NAMES, fold_case=True)
         if "components" not in table:
-            _missing(
+            missing(
                 "fluid.components",
                 'list the components, e.g. components = ["C1", "nC4"] (see docs/config.md)',
             )
-        entries = _list(
+        entries = as_list(
             table["components"],
             "fluid.components",
             "a list of built-in component names and/or pseudo-component tables",
@@ -461,7 +300,7 @@ class _Parser:
                 comp, canon = self._pseudo(entry, key)
                 canon_components.append(canon)
             else:
-                _bad(
+                bad(
                     key,
                     entry,
                     "is neither a built-in component name nor a pseudo-component table "
@@ -470,7 +309,7 @@ class _Parser:
                 )
             for j, other in enumerate(components):
                 if other.name.lower() == comp.name.lower():
-                    _bad(
+                    bad(
                         key,
                         entry if isinstance(entry, str) else comp.name,
                         f"is the same component as fluid.components[{j}]; list each component once",
@@ -483,7 +322,7 @@ class _Parser:
         if "heavy_end" in table:
             # A plus-fraction characterised into pseudo-components appended to the components.
             self.heavy = parse_heavy_end(
-                table["heavy_end"], tuple(components), self.doc.get("streams"), _check_keys
+                table["heavy_end"], tuple(components), self.doc.get("streams")
             )
             components.extend(self.heavy.pseudo_components)
             written.extend(c.name for c in self.heavy.pseudo_components)
@@ -522,7 +361,7 @@ class _Parser:
         lowered = [n for n in known if n.lower() == name.strip().lower()]
         close = lowered or close
         hint = f" (did you mean {', '.join(map(repr, close))}?)" if close else ""
-        _bad(
+        bad(
             key,
             name,
             f"is not a built-in component{hint}; built-in: {', '.join(known)}; define others "
@@ -531,25 +370,25 @@ class _Parser:
         )
 
     def _pseudo(self, entry: dict[str, Any], key: str) -> tuple[Component, dict[str, Any]]:
-        _check_keys(entry, key, _PSEUDO_KEYS)
+        check_keys(entry, key, _PSEUDO_KEYS)
         for field in _PSEUDO_REQUIRED:
             if field not in entry:
-                _missing(
+                missing(
                     f"{key}.{field}",
                     "a pseudo-component needs name, tc, tc_unit, pc, pc_unit, omega and mw "
                     "(mw in g/mol)",
                 )
-        name = _str(entry["name"], f"{key}.name", "the pseudo-component's name")
+        name = as_str(entry["name"], f"{key}.name", "the pseudo-component's name")
         tc_unit = temperature_unit(entry["tc_unit"], key=f"{key}.tc_unit")
-        tc = _float(entry["tc"], f"{key}.tc", f"a critical temperature in {tc_unit}")
+        tc = as_float(entry["tc"], f"{key}.tc", f"a critical temperature in {tc_unit}")
         tc_k = temperature_to_kelvin(tc, tc_unit, key=f"{key}.tc")
         pc_unit = pressure_unit(entry["pc_unit"], key=f"{key}.pc_unit")
-        pc = _float(entry["pc"], f"{key}.pc", f"a critical pressure in {pc_unit}")
+        pc = as_float(entry["pc"], f"{key}.pc", f"a critical pressure in {pc_unit}")
         pc_pa = pressure_to_pa(pc, pc_unit, key=f"{key}.pc")
-        omega = _float(entry["omega"], f"{key}.omega", "an acentric factor between -1 and 3")
-        mw = _float(entry["mw"], f"{key}.mw", "a molar mass in g/mol above 0")
+        omega = as_float(entry["omega"], f"{key}.omega", "an acentric factor between -1 and 3")
+        mw = as_float(entry["mw"], f"{key}.mw", "a molar mass in g/mol above 0")
         if mw <= 0:
-            _bad(f"{key}.mw", entry["mw"], "must be above 0; give the molar mass in g/mol")
+            bad(f"{key}.mw", entry["mw"], "must be above 0; give the molar mass in g/mol")
         canon: dict[str, Any] = {
             "name": name,
             "tc": tc,
@@ -562,21 +401,21 @@ class _Parser:
         optional: dict[str, Any] = {}
         if "vc" in entry or "vc_unit" in entry:
             if "vc" not in entry:
-                _missing(f"{key}.vc", f"{key}.vc_unit is given without the critical volume vc")
+                missing(f"{key}.vc", f"{key}.vc_unit is given without the critical volume vc")
             if "vc_unit" not in entry:
-                _missing(
+                missing(
                     f"{key}.vc_unit",
                     "give the unit of vc: m3/mol, cm3/mol or L/mol",
                 )
             vc_unit = molar_volume_unit(entry["vc_unit"], key=f"{key}.vc_unit")
-            vc = _float(entry["vc"], f"{key}.vc", f"a critical volume in {vc_unit}")
+            vc = as_float(entry["vc"], f"{key}.vc", f"a critical volume in {vc_unit}")
             optional["vc"] = molar_volume_to_si(vc, vc_unit, key=f"{key}.vc")
             canon.update(vc=vc, vc_unit=vc_unit)
         for field in ("zra", "volume_shift"):
             if field in entry:
-                optional[field] = canon[field] = _float(entry[field], f"{key}.{field}")
+                optional[field] = canon[field] = as_float(entry[field], f"{key}.{field}")
         if "source" in entry:
-            optional["source"] = _str(
+            optional["source"] = as_str(
                 entry["source"], f"{key}.source", "a note saying where the constants come from"
             )
         try:
@@ -628,7 +467,7 @@ class _Parser:
             pass
         elif isinstance(value, dict):
             for pair, v in value.items():
-                key = _join("fluid.kij", pair)
+                key = join_key("fluid.kij", pair)
                 pairs.append((key, *self._split_pair(pair, key), v))
         elif isinstance(value, list):
             for i, item in enumerate(value):
@@ -639,10 +478,10 @@ class _Parser:
                     or not isinstance(item[0], str)
                     or not isinstance(item[1], str)
                 ):
-                    _bad(key, item, 'is not a pair entry; write ["CO2", "C1", 0.12]')
+                    bad(key, item, 'is not a pair entry; write ["CO2", "C1", 0.12]')
                 pairs.append((key, item[0], item[1], item[2]))
         else:
-            _bad(
+            bad(
                 "fluid.kij",
                 value,
                 'is neither a table of pairs ("CO2-C1" = 0.12) nor a list of pairs '
@@ -657,18 +496,18 @@ class _Parser:
                 idx.append(i)
             i, j = idx
             if i == j:
-                _bad(
+                bad(
                     key,
                     v,
                     f"pairs {self.names[i]!r} with itself; kij of a component with "
                     "itself is always 0, give pairs of two different components",
                 )
-            k = _float(v, key, "a binary interaction parameter with |kij| < 1")
+            k = as_float(v, key, "a binary interaction parameter with |kij| < 1")
             if abs(k) >= 1.0:
-                _bad(key, v, "is out of range; binary interaction parameters need |kij| < 1")
+                bad(key, v, "is out of range; binary interaction parameters need |kij| < 1")
             pair_id = (min(i, j), max(i, j))
             if pair_id in seen:
-                _bad(
+                bad(
                     key,
                     v,
                     f"gives the pair again (already given by {seen[pair_id]}); give each pair once",
@@ -705,7 +544,7 @@ class _Parser:
 
     def _streams(self, table: dict[str, Any]) -> dict[str, np.ndarray]:
         if not table:
-            _missing(
+            missing(
                 "streams.NAME",
                 "define at least one stream, e.g. [streams.oil] mole_fractions = { C1 = 0.5, "
                 "nC10 = 0.5 }",
@@ -713,14 +552,14 @@ class _Parser:
         out: dict[str, np.ndarray] = {}
         canon: dict[str, Any] = {}
         for name, stream in table.items():
-            path = _join("streams", name)
+            path = join_key("streams", name)
             if not name.strip():
-                _bad(path, name, "is not a usable stream name; name streams with a word")
-            _table(stream, path, "a stream table with mole_fractions (and optionally normalise)")
-            _check_keys(stream, path, _STREAM_KEYS)
-            normalise = _bool(stream.get("normalise", False), f"{path}.normalise")
+                bad(path, name, "is not a usable stream name; name streams with a word")
+            as_table(stream, path, "a stream table with mole_fractions (and optionally normalise)")
+            check_keys(stream, path, _STREAM_KEYS)
+            normalise = as_bool(stream.get("normalise", False), f"{path}.normalise")
             if "mole_fractions" not in stream:
-                _missing(
+                missing(
                     f"{path}.mole_fractions",
                     "give the stream's mole fractions, e.g. "
                     "mole_fractions = { C1 = 0.9, C2 = 0.1 }",
@@ -746,23 +585,23 @@ class _Parser:
             rest = {}
             for comp, v in value.items():
                 if isinstance(comp, str) and self.heavy.is_label(comp):
-                    heavy_total += self._fraction_value(v, _join(key, comp), normalise, upper)
+                    heavy_total += self._fraction_value(v, join_key(key, comp), normalise, upper)
                 else:
                     rest[comp] = v
             value = rest
         if isinstance(value, dict):
             for comp, v in value.items():
-                ckey = _join(key, comp)
+                ckey = join_key(key, comp)
                 i = self._component_index(comp)
                 if i is None:
                     self._unknown_component(ckey, comp, "each key of mole_fractions")
                 if given[i] is not None:
-                    _bad(ckey, v, f"is the same component as {given[i]}; give each component once")
+                    bad(ckey, v, f"is the same component as {given[i]}; give each component once")
                 given[i] = ckey
                 z[i] = self._fraction_value(v, ckey, normalise, upper)
         elif isinstance(value, list):
             if len(value) != nc:
-                _bad(
+                bad(
                     key,
                     value,
                     f"has {len(value)} entries but there are {nc} components "
@@ -772,7 +611,7 @@ class _Parser:
             for i, v in enumerate(value):
                 z[i] = self._fraction_value(v, f"{key}[{i}]", normalise, upper)
         else:
-            _bad(
+            bad(
                 key,
                 value,
                 "is not a table of mole fractions by component (e.g. { C1 = 0.9, C2 = 0.1 }) "
@@ -782,15 +621,15 @@ class _Parser:
             assert self.heavy is not None
             pseudo = slice(self.heavy.n_light, self.heavy.n_light + len(self.heavy.shares))
             if np.any(z[pseudo] > 0.0):
-                _bad(key, value, "gives both heavy-end entries and pseudo-component fractions; "
+                bad(key, value, "gives both heavy-end entries and pseudo-component fractions; "
                      "give one or the other")
             z[pseudo] = heavy_total * self.heavy.shares
         total = float(z.sum())
         if normalise:
             if total <= 0.0:
-                _bad(key, value, "has no positive fraction; at least one component must be > 0")
+                bad(key, value, "has no positive fraction; at least one component must be > 0")
         elif abs(total - 1.0) > SUM_TOLERANCE:
-            _bad(
+            bad(
                 key,
                 value,
                 f"sums to {total:.10g}, not 1 within {SUM_TOLERANCE:g}; correct the fractions or "
@@ -801,9 +640,9 @@ class _Parser:
 
     @staticmethod
     def _fraction_value(v: object, key: str, normalise: bool, what: str) -> float:
-        x = _float(v, key, what)
+        x = as_float(v, key, what)
         if x < 0.0 or (not normalise and x > 1.0):
-            _bad(key, v, f"is out of range; expected {what}")
+            bad(key, v, f"is out of range; expected {what}")
         return x
 
     # -- axes --------------------------------------------------------------------------------
@@ -826,18 +665,18 @@ class _Parser:
             extra = [k for k in _RANGE_KEYS if k in table]
             if extra:
                 raise ConfigError(
-                    f"{path}.values cannot be combined with {_join(path, extra[0])}; give either "
-                    "values = [...] or start, stop and count"
+                    f"{path}.values cannot be combined with {join_key(path, extra[0])}; give "
+                    "either values = [...] or start, stop and count"
                 )
-            items = _list(table["values"], f"{path}.values", f"a list of values, each {what}")
+            items = as_list(table["values"], f"{path}.values", f"a list of values, each {what}")
             if len(items) > MAX_AXIS_POINTS:
-                _bad(f"{path}.values", items, f"has more than {MAX_AXIS_POINTS} values")
-            numbers = [_float(v, f"{path}.values[{i}]", what) for i, v in enumerate(items)]
+                bad(f"{path}.values", items, f"has more than {MAX_AXIS_POINTS} values")
+            numbers = [as_float(v, f"{path}.values[{i}]", what) for i, v in enumerate(items)]
             for i, v in enumerate(numbers):
                 check(v, f"{path}.values[{i}]")
             for i in range(1, len(numbers)):
                 if numbers[i] <= numbers[i - 1]:
-                    _bad(
+                    bad(
                         f"{path}.values[{i}]",
                         items[i],
                         f"is not greater than {path}.values[{i - 1}] = {items[i - 1]!r}; axis "
@@ -846,18 +685,18 @@ class _Parser:
             return np.array(numbers), {"values": numbers}
         for k in _RANGE_KEYS:
             if k not in table:
-                _missing(
-                    _join(path, k),
+                missing(
+                    join_key(path, k),
                     f"give {path}.start, {path}.stop and {path}.count, or {path}.values = [...]",
                 )
-        start = _float(table["start"], f"{path}.start", what)
-        stop = _float(table["stop"], f"{path}.stop", what)
-        count = _int(table["count"], f"{path}.count", 1, MAX_AXIS_POINTS, "a number of points")
+        start = as_float(table["start"], f"{path}.start", what)
+        stop = as_float(table["stop"], f"{path}.stop", what)
+        count = as_int(table["count"], f"{path}.count", 1, MAX_AXIS_POINTS, "a number of points")
         check(start, f"{path}.start")
         check(stop, f"{path}.stop")
         if count == 1:
             if start != stop:
-                _bad(
+                bad(
                     f"{path}.stop",
                     table["stop"],
                     f"differs from {path}.start = {table['start']!r} but {path}.count = 1; for a "
@@ -866,7 +705,7 @@ class _Parser:
             numbers = np.array([start])
         else:
             if stop <= start:
-                _bad(
+                bad(
                     f"{path}.stop",
                     table["stop"],
                     f"is not greater than {path}.start = {table['start']!r}; axes run in "
@@ -878,7 +717,7 @@ class _Parser:
             numbers = (start * (count - 1 - i) + stop * i) / (count - 1)
             numbers[0], numbers[-1] = start, stop
             if not np.all(np.diff(numbers) > 0):
-                _bad(
+                bad(
                     f"{path}.count",
                     count,
                     f"is too large for the span {start!r}..{stop!r}: the points would not be "
@@ -887,9 +726,9 @@ class _Parser:
         return numbers, {"start": start, "stop": stop, "count": count}
 
     def _pressure(self, table: dict[str, Any]) -> Axis:
-        _check_keys(table, "pressure", _AXIS_KEYS)
+        check_keys(table, "pressure", _AXIS_KEYS)
         if "unit" not in table:
-            _missing(
+            missing(
                 "pressure.unit", f"give the unit of the pressures: {', '.join(PRESSURE_UNITS)}"
             )
         unit = pressure_unit(table["unit"], key="pressure.unit")
@@ -905,9 +744,9 @@ class _Parser:
         return Axis("pressure", tuple(np.asarray(values).tolist()), "Pa", "pressure")
 
     def _temperature(self, table: dict[str, Any]) -> Axis:
-        _check_keys(table, "temperature", _AXIS_KEYS)
+        check_keys(table, "temperature", _AXIS_KEYS)
         if "unit" not in table:
-            _missing(
+            missing(
                 "temperature.unit",
                 f"give the unit of the temperatures: {', '.join(TEMPERATURE_UNITS)}",
             )
@@ -927,13 +766,13 @@ class _Parser:
         self, table: dict[str, Any], streams: dict[str, np.ndarray]
     ) -> CompositionAxis:
         all_keys = tuple(dict.fromkeys(k for keys in _COMPOSITION_KEYS.values() for k in keys))
-        _check_keys(table, "composition", all_keys)
+        check_keys(table, "composition", all_keys)
         kinds = tuple(_COMPOSITION_KEYS)
         if "kind" not in table:
-            _missing("composition.kind", f"choose one of {', '.join(map(repr, kinds))}")
-        kind = _choice(table["kind"], "composition.kind", kinds)
+            missing("composition.kind", f"choose one of {', '.join(map(repr, kinds))}")
+        kind = choice(table["kind"], "composition.kind", kinds)
         if self.sampling is not None and kind == "list":
-            _bad(
+            bad(
                 "composition.kind",
                 kind,
                 "cannot be sampled; with [sampling] use 'mixing' (a range of mixing ratios of "
@@ -942,14 +781,14 @@ class _Parser:
         for key in table:
             if key not in _COMPOSITION_KEYS[kind]:
                 raise ConfigError(
-                    f"{_join('composition', key)} is not used with composition.kind = {kind!r}; "
+                    f"{join_key('composition', key)} is not used with composition.kind = {kind!r}; "
                     f"keys for this kind: {', '.join(_COMPOSITION_KEYS[kind])}"
                 )
         canon: dict[str, Any] = {"kind": kind}
         names: list[str] = []
         if "streams" in table or kind != "list":
             if "streams" not in table:
-                _missing("composition.streams", "list the names of the streams to combine")
+                missing("composition.streams", "list the names of the streams to combine")
             names = self._stream_names(table["streams"], streams)
             canon["streams"] = names
         if kind == "mixing":
@@ -962,23 +801,23 @@ class _Parser:
         return axis
 
     def _stream_names(self, value: object, streams: dict[str, np.ndarray]) -> list[str]:
-        items = _list(value, "composition.streams", "a list of stream names")
+        items = as_list(value, "composition.streams", "a list of stream names")
         names: list[str] = []
         for i, name in enumerate(items):
             key = f"composition.streams[{i}]"
             if not isinstance(name, str):
-                _bad(key, name, "is not a stream name (a string)")
+                bad(key, name, "is not a stream name (a string)")
             if name not in streams:
                 close = difflib.get_close_matches(name, list(streams), n=1, cutoff=0.5)
                 hint = f" (did you mean {close[0]!r}?)" if close else ""
-                _bad(
+                bad(
                     key,
                     name,
                     f"is not a defined stream{hint}; defined streams: "
                     f"{', '.join(map(repr, streams))}",
                 )
             if name in names:
-                _bad(key, name, "is listed twice; list each stream once")
+                bad(key, name, "is listed twice; list each stream once")
             names.append(name)
         return names
 
@@ -990,7 +829,7 @@ class _Parser:
         canon: dict[str, Any],
     ) -> CompositionAxis:
         if len(names) != 2:
-            _bad(
+            bad(
                 "composition.streams",
                 table["streams"],
                 "must name exactly two streams for kind = 'mixing' (the first at ratio 0, the "
@@ -999,13 +838,13 @@ class _Parser:
 
         def check(v: float, key: str) -> None:
             if not 0.0 <= v <= 1.0:
-                _bad(key, v, "is out of range; a mixing ratio is between 0 and 1")
+                bad(key, v, "is out of range; a mixing ratio is between 0 and 1")
 
         ratios, axis_canon = self._axis_numbers(
             table, "composition", "a mixing ratio between 0 and 1", check
         )
         if len(ratios) > MAX_COMPOSITION_POINTS:
-            _bad("composition.count", len(ratios), f"exceeds {MAX_COMPOSITION_POINTS} points")
+            bad("composition.count", len(ratios), f"exceeds {MAX_COMPOSITION_POINTS} points")
         canon.update(axis_canon)
         first, second = names
         return mixing_axis(first, second, streams[first], streams[second], ratios.tolist())
@@ -1018,7 +857,7 @@ class _Parser:
         canon: dict[str, Any],
     ) -> CompositionAxis:
         if len(names) < 3:
-            _bad(
+            bad(
                 "composition.streams",
                 table["streams"],
                 "must name at least three streams for kind = 'simplex'; use kind = 'mixing' "
@@ -1033,11 +872,11 @@ class _Parser:
             # The corners (the streams themselves); the samples are drawn inside.
             return simplex_axis(names, np.array([streams[n] for n in names]), 1)
         if "divisions" not in table:
-            _missing(
+            missing(
                 "composition.divisions",
                 "give the number of divisions of each simplex edge (an integer >= 1)",
             )
-        divisions = _int(
+        divisions = as_int(
             table["divisions"],
             "composition.divisions",
             1,
@@ -1046,7 +885,7 @@ class _Parser:
         )
         size = simplex_size(len(names), divisions)
         if size > MAX_COMPOSITION_POINTS:
-            _bad(
+            bad(
                 "composition.divisions",
                 divisions,
                 f"gives {size} simplex points over {len(names)} streams, more than "
@@ -1069,7 +908,7 @@ class _Parser:
                 "either a list of stream names or a list of compositions"
             )
         if not names and not has_rows:
-            _missing(
+            missing(
                 "composition.streams",
                 "for kind = 'list' give composition.streams = [names of streams] or "
                 "composition.mole_fractions = [compositions]",
@@ -1081,12 +920,12 @@ class _Parser:
                     "normalise in each stream's own table instead"
                 )
             return list_axis(np.array([streams[n] for n in names]), names)
-        normalise = _bool(table.get("normalise", False), "composition.normalise")
-        rows = _list(
+        normalise = as_bool(table.get("normalise", False), "composition.normalise")
+        rows = as_list(
             table["mole_fractions"], "composition.mole_fractions", "a list of compositions"
         )
         if len(rows) > MAX_COMPOSITION_POINTS:
-            _bad("composition.mole_fractions", rows, f"has more than {MAX_COMPOSITION_POINTS} rows")
+            bad("composition.mole_fractions", rows, f"has more than {MAX_COMPOSITION_POINTS} rows")
         feeds = []
         canon_rows = []
         for i, row in enumerate(rows):
@@ -1100,17 +939,18 @@ class _Parser:
 
     # -- run options -------------------------------------------------------------------------
 
-    def _run(
+    def _run_options(
         self,
         table: dict[str, Any],
         pressure: Axis,
         temperature: Axis,
         composition: CompositionAxis,
     ) -> RunOptions:
-        _check_keys(table, "run", _RUN_KEYS)
+        check_keys(table, "run", _RUN_KEYS)
         if "output" not in table:
-            _missing("run.output", 'give the path of the zarr store to write, e.g. "out.zarr"')
-        output = Path(_str(table["output"], "run.output", "a path for the zarr store")).expanduser()
+            missing("run.output", 'give the path of the zarr store to write, e.g. "out.zarr"')
+        output = as_str(table["output"], "run.output", "a path for the zarr store")
+        output = Path(output).expanduser()
         if not output.is_absolute():
             base = self.base_dir if self.base_dir is not None else Path.cwd()
             output = base.absolute() / output
@@ -1124,27 +964,29 @@ class _Parser:
                 composition.name: len(composition),
             }
             sweep_choices = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, composition.name)))
-            sweep = _choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
+            sweep = choice(table.get("sweep", "pressure"), "run.sweep", sweep_choices)
             sweep_dim = composition.name if sweep == "composition" else sweep
             chunks = self._chunks(table.get("chunks", {}), dims, lengths)
         workers = None
         if "workers" in table:
-            workers = _int(table["workers"], "run.workers", 1, _MAX_WORKERS, "a number of workers")
-        scheduler = _choice(table.get("scheduler", "threads"), "run.scheduler", _SCHEDULERS)
+            workers = as_int(
+                table["workers"], "run.workers", 1, _MAX_WORKERS, "a number of workers"
+            )
+        scheduler = choice(table.get("scheduler", "threads"), "run.scheduler", _SCHEDULERS)
         address = None
         if "scheduler_address" in table:
-            address = _str(
+            address = as_str(
                 table["scheduler_address"],
                 "run.scheduler_address",
                 'the address of a dask.distributed scheduler, e.g. "tcp://10.0.0.5:8786"',
             )
             if any(ch.isspace() for ch in address):
-                _bad(
+                bad(
                     "run.scheduler_address",
                     address,
                     'contains whitespace; give an address such as "tcp://10.0.0.5:8786"',
                 )
-        warm_start = _bool(table.get("warm_start", True), "run.warm_start")
+        warm_start = as_bool(table.get("warm_start", True), "run.warm_start")
         self.canonical["run"] = {
             "chunks": {("composition" if d == composition.name else d): n for d, n in chunks},
             "sweep": "composition" if sweep_dim == composition.name else sweep_dim,
@@ -1163,23 +1005,23 @@ class _Parser:
     # -- sampling mode -----------------------------------------------------------------------
 
     def _sampling(self, table: dict[str, Any]) -> dict[str, Any]:
-        _check_keys(table, "sampling", _SAMPLING_KEYS)
+        check_keys(table, "sampling", _SAMPLING_KEYS)
         if "points" not in table:
-            _missing(
+            missing(
                 "sampling.points",
                 f"give the number of samples to draw (an integer 1 to {MAX_SAMPLE_POINTS})",
             )
-        points = _int(table["points"], "sampling.points", 1, MAX_SAMPLE_POINTS,
+        points = as_int(table["points"], "sampling.points", 1, MAX_SAMPLE_POINTS,
                       "a number of samples")
-        sequence = _choice(table.get("sequence", "sobol"), "sampling.sequence", SEQUENCES,
+        sequence = choice(table.get("sequence", "sobol"), "sampling.sequence", SEQUENCES,
                            fold_case=True)
         if "seed" not in table:
-            _missing(
+            missing(
                 "sampling.seed",
                 "give an integer >= 0 that seeds the scrambling (the same seed always draws "
                 "the same samples)",
             )
-        seed = _int(table["seed"], "sampling.seed", 0, None, "a seed for the scrambling")
+        seed = as_int(table["seed"], "sampling.seed", 0, None, "a seed for the scrambling")
         out = {"points": points, "sequence": sequence, "seed": seed}
         self.canonical["sampling"] = dict(out)
         return out
@@ -1190,21 +1032,21 @@ class _Parser:
         for key in ("count", "values"):
             if key in table:
                 raise ConfigError(
-                    f"{_join(path, key)} is not used with [sampling]: give the sampled range as "
+                    f"{join_key(path, key)} is not used with [sampling]: give the sampled range as "
                     f"{path}.start and {path}.stop (the number of samples is sampling.points)"
                 )
         for key in ("start", "stop"):
             if key not in table:
-                _missing(
-                    _join(path, key),
+                missing(
+                    join_key(path, key),
                     f"with [sampling] give the sampled range as {path}.start and {path}.stop",
                 )
-        start = _float(table["start"], f"{path}.start", what)
-        stop = _float(table["stop"], f"{path}.stop", what)
+        start = as_float(table["start"], f"{path}.start", what)
+        stop = as_float(table["stop"], f"{path}.stop", what)
         check(start, f"{path}.start")
         check(stop, f"{path}.stop")
         if stop < start:
-            _bad(
+            bad(
                 f"{path}.stop",
                 table["stop"],
                 f"is less than {path}.start = {table['start']!r}; give the sampled range in "
@@ -1246,16 +1088,16 @@ class _Parser:
                 "nearest sample computed before it in its chunk (see docs/config.md); remove it"
             )
         value = table.get("chunks", {})
-        chunks = _table(value, "run.chunks", "a table of chunk lengths, e.g. { sample = 4096 }")
+        chunks = as_table(value, "run.chunks", "a table of chunk lengths, e.g. { sample = 4096 }")
         for key in chunks:
             if key != "sample":
                 raise ConfigError(
-                    f"{_join('run.chunks', str(key))} is not a dimension of a sampling run; its "
+                    f"{join_key('run.chunks', str(key))} is not a dimension of a sampling run; its "
                     "one dimension is sample: give run.chunks.sample (samples per chunk)"
                 )
         if "sample" not in chunks:
             return "sample", ()
-        n = _int(chunks["sample"], "run.chunks.sample", 1, None, "a chunk length in samples")
+        n = as_int(chunks["sample"], "run.chunks.sample", 1, None, "a chunk length in samples")
         return "sample", (("sample", min(n, self.sampling["points"])),)
 
     def _chunks(
@@ -1264,9 +1106,9 @@ class _Parser:
         dims: tuple[str, str, str],
         lengths: dict[str, int],
     ) -> tuple[tuple[str, int], ...]:
-        table = _table(value, "run.chunks", "a table of chunk lengths, e.g. { pressure = 10 }")
+        table = as_table(value, "run.chunks", "a table of chunk lengths, e.g. { pressure = 10 }")
         allowed = tuple(dict.fromkeys((*_AXIS_CONFIG_NAMES, dims[2])))
-        _check_keys(table, "run.chunks", allowed)
+        check_keys(table, "run.chunks", allowed)
         if "composition" in table and dims[2] in table:
             raise ConfigError(
                 f"run.chunks.composition and run.chunks.{dims[2]} name the same dimension; "
@@ -1275,7 +1117,7 @@ class _Parser:
         given: dict[str, int] = {}
         for key, v in table.items():
             dim = dims[2] if key == "composition" else key
-            n = _int(v, _join("run.chunks", key), 1, None, "a chunk length in grid points")
+            n = as_int(v, join_key("run.chunks", key), 1, None, "a chunk length in grid points")
             given[dim] = min(n, lengths[dim])
         # Only the dimensions the config gives: the chunk plan (gridflash.plan._chunks) chooses the
         # others, so the default policy lives in one place.

@@ -14,7 +14,18 @@ import numpy as np
 from .._types import SchedulerKind
 from ..thermo import Component, Mixture
 
-__all__ = ["Axis", "CompositionAxis", "FluidSpec", "RunOptions", "RunSpec", "SampleDesign"]
+#: The scrambled low-discrepancy sequences a sampling run may use.
+SEQUENCES: tuple[str, ...] = ("sobol", "halton")
+
+__all__ = [
+    "SEQUENCES",
+    "Axis",
+    "CompositionAxis",
+    "FluidSpec",
+    "RunOptions",
+    "RunSpec",
+    "SampleDesign",
+]
 
 
 @dataclass(frozen=True)
@@ -90,8 +101,8 @@ class SampleDesign:
     """Sampling mode: ``points`` cells drawn by a scrambled low-discrepancy sequence.
 
     Built from the config's ``[sampling]`` table and the ranges of ``[pressure]``,
-    ``[temperature]`` and ``[composition]``; ``gridflash.plan._sampling.sample_inputs`` turns a range
-    of sample indices into cell inputs (the mapping is documented there).
+    ``[temperature]`` and ``[composition]``; ``gridflash.plan._sampling.sample_inputs`` turns a
+    range of sample indices into cell inputs (the mapping is documented there).
     """
 
     points: int
@@ -122,6 +133,9 @@ class RunSpec:
     run: RunOptions
     config_text: str = field(repr=False)
     config_hash: str = ""
+    #: The canonical document as compact JSON (``config_hash`` is its SHA-256); stored at creation
+    #: so that a resume lists the changed keys without parsing the old config text again.
+    config_canonical: str = field(default="", repr=False)
     #: Sampling mode (the config has ``[sampling]``): the cells are the design's samples, the
     #: three axes above hold only the ends of the sampled ranges (and the simplex corners), and
     #: the store has the single dimension ``sample``.

@@ -39,7 +39,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._errors import InputError
-from ..config._spec import SampleDesign
+from ..config._spec import SEQUENCES, SampleDesign
 
 __all__ = [
     "SAMPLE_DIM",
@@ -53,7 +53,6 @@ __all__ = [
 #: Name of the single dimension of a sample store.
 SAMPLE_DIM = "sample"
 #: Low-discrepancy sequences offered by ``sampling.sequence``.
-SEQUENCES: tuple[str, ...] = ("sobol", "halton")
 
 
 @dataclass(frozen=True, eq=False)

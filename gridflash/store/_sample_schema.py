@@ -6,7 +6,7 @@ coordinates along it -- ``pressure(sample)``, ``temperature(sample)`` and, for a
 ``mixing_ratio(sample)`` -- and ``feed_composition(sample, component)`` and
 ``stream_fraction(sample, stream)`` are data variables, as in a grid store. Everything else
 (per-cell results, completion marks, root attributes) is the grid store's schema with
-``sample`` as the only grid dimension; ``gridflash.store._store`` builds it.
+``sample`` as the only grid dimension; ``gridflash.store._schema`` builds it.
 """
 
 from __future__ import annotations
