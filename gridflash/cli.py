@@ -83,6 +83,9 @@ def cli() -> None:
               help="Local workers as threads or as processes (default: run.scheduler).")
 @click.option("--no-warm-start", is_flag=True,
               help="Start every cell cold instead of from the previous slab's K-values.")
+@click.option("--max-cells", type=click.IntRange(min=1), metavar="N", default=None,
+              help="Largest grid to run, in cells (default: 1,000,000,000); a bigger one is "
+              "refused before anything is planned or written.")
 @click.option("--quiet", "-q", is_flag=True, help="Print nothing but errors.")
 def run_command(
     config: Path,
@@ -93,15 +96,17 @@ def run_command(
     scheduler_address: str | None,
     threads: bool | None,
     no_warm_start: bool,
+    max_cells: int | None,
     quiet: bool,
 ) -> None:
     """Compute the grid described by the TOML file CONFIG into a zarr store."""
     if resume and overwrite:
         raise click.UsageError("--resume and --overwrite exclude each other; choose one")
-    from .config._parser import load_config
-    from .runner import run
+    from .config import load_config
+    from .runner import DEFAULT_MAX_CELLS, check_grid_size, run
 
     spec = load_config(config)
+    check_grid_size(spec, max_cells or DEFAULT_MAX_CELLS)  # before the kernels are loaded
     options = spec.run
     if output is not None:
         options = replace(options, output=output.expanduser().absolute())
@@ -110,13 +115,14 @@ def run_command(
     if no_warm_start:
         options = replace(options, warm_start=False)
     spec = replace(spec, run=options)
-    logging.getLogger("distributed").setLevel(logging.ERROR)
+    logging.getLogger("distributed").setLevel(logging.CRITICAL)  # failures: one line, below
     on_terminal = not quiet and sys.stderr.isatty()
     _load_kernels(spec.fluid.mixture(), sys.stderr if on_terminal else None)
     show = _ProgressLine(sys.stderr) if on_terminal else None
     try:
         summary = run(spec, resume=resume, overwrite=overwrite, workers=workers,
-                      scheduler_address=scheduler_address, progress=show)
+                      scheduler_address=scheduler_address, progress=show,
+                      max_cells=max_cells or DEFAULT_MAX_CELLS)
     except KeyboardInterrupt:
         if show:
             show.close()
@@ -135,11 +141,23 @@ def run_command(
 @click.argument("store", type=click.Path(path_type=Path))
 @click.option("--list", "max_listed", type=click.IntRange(min=0), default=20, show_default=True,
               metavar="N", help="Unconverged cells to list individually.")
-def inspect_command(store: Path, max_listed: int) -> None:
-    """Summarise the zarr store STORE: axes, phase states, unconverged cells, iterations."""
-    from .analysis._inspect import inspect_store
+@click.option("--pressure-unit", metavar="UNIT",
+              help="Pressure unit shown: bar, MPa, kPa, psia, atm, Pa (default: the config's).")
+@click.option("--temperature-unit", metavar="UNIT",
+              help="Temperature unit shown: degC, K, degF (default: the config's).")
+def inspect_command(store: Path, max_listed: int, pressure_unit: str | None,
+                    temperature_unit: str | None) -> None:
+    """Summarise the zarr store STORE: axes, phase states, unconverged cells, iterations.
 
-    click.echo(_format_report(inspect_store(store, max_listed=max_listed)))
+    Pressures and temperatures are shown in the units the store's config was written in,
+    unless --pressure-unit / --temperature-unit say otherwise.
+    """
+    from .analysis import config_units, inspect_store
+
+    report = inspect_store(store, max_listed=max_listed)
+    p_unit, t_unit = config_units(report.attrs)
+    units = _Units(pressure_unit or p_unit, temperature_unit or t_unit)
+    click.echo(_format_report(report, units))
 
 
 _EPILOG_CHARACTERISE = """\b
@@ -161,7 +179,7 @@ def characterise_command(config: Path, toml_out: Path | None) -> None:
     [fluid] and [streams.NAME] tables in config form, ready to paste into a config.
     """
     from ._errors import ConfigError
-    from .config._parser import load_config
+    from .config import load_config
     from .thermo import fluid_table_text, fluid_table_toml
 
     spec = load_config(config)
@@ -258,7 +276,7 @@ def saturation_command(store: Path) -> None:
     """
     import numpy as np
 
-    from .analysis._saturation_lines import add_saturation_lines
+    from .analysis import add_saturation_lines
 
     lines = add_saturation_lines(store)
     kind = lines.saturation_kind.values
@@ -277,9 +295,11 @@ _EPILOG_EXPORT = """\b
 Examples:
   gridflash export configs/training_samples.zarr --out samples.parquet
   gridflash export table.zarr --out table.nc --split 0.7,0.15,0.15 --converged-only
+  gridflash export table.zarr --out table.csv
 
 \b
-Writes FILE and FILE.columns.json (every column's name, role, units and meaning).
+Writes FILE and FILE.columns.json (every column's name, role, units and meaning); a CSV
+also gets FILE.units.csv (each column's units, role and meaning, as a table).
 See docs/training.md for the columns and how the split is decided.
 """
 
@@ -298,9 +318,10 @@ def _split_option(ctx: click.Context, param: click.Parameter, value: str):
 @click.argument("store", type=click.Path(path_type=Path))
 @click.option("--out", "-o", "out", required=True, metavar="FILE",
               type=click.Path(dir_okay=False, path_type=Path),
-              help="Table to write (.parquet, or .nc for NetCDF).")
-@click.option("--format", "fmt", type=click.Choice(["parquet", "netcdf"]), default=None,
-              help="File format (default: from FILE's suffix, .nc -> netcdf; else parquet).")
+              help="Table to write: .parquet, .csv or .nc (NetCDF).")
+@click.option("--format", "fmt", type=click.Choice(["parquet", "csv", "netcdf"]), default=None,
+              help="File format (default: from FILE's suffix; refused if the suffix names "
+              "another format).")
 @click.option("--split", "split", default="0.8,0.1,0.1", show_default=True,
               metavar="TRAIN,VALIDATION,TEST", callback=_split_option,
               help="Shares of the train, validation and test splits (summing to 1).")
@@ -324,7 +345,7 @@ def export_command(
     compositions, K-values, densities, viscosities, converged, status) and a train /
     validation / test split decided by a hash of the cell's inputs.
     """
-    from .analysis._export import export_table
+    from .analysis import export_table
 
     summary = export_table(store, out, format=fmt, split=split,  # type: ignore[arg-type]
                            converged_only=converged_only, overwrite=overwrite)
@@ -336,6 +357,8 @@ def export_command(
                    f"{summary.cells:,} cells{dropped}; {len(summary.columns)} columns")
         click.echo(f"  split: {counts}")
         click.echo(f"  columns described in {summary.columns_path}")
+        if summary.format == "csv":
+            click.echo(f"  units of the columns in {summary.path}.units.csv")
 
 
 def main(argv: list[str] | None = None) -> None:
@@ -355,9 +378,11 @@ _COMPILE_HINT_AFTER = 1.0
 def _load_kernels(mixture, stream: TextIO | None) -> float:
     """Flash one cell in this process, so the compiled kernels are ready before the run starts.
 
-    On the first use on a machine this compiles them (about half a minute) and writes numba's
-    disk cache, which local worker processes then load instead of each compiling again; a
-    compilation is announced on ``stream`` (None: silent). Returns the seconds it took.
+    On the first use on a machine (no compiled kernels in the disk cache,
+    :func:`kernels_cached`) this compiles them (about half a minute) and writes numba's disk
+    cache, which local worker processes then load instead of each compiling again; a
+    compilation, and only a compilation, is announced on ``stream`` (None: silent) once it has
+    taken a second. Returns the seconds it took.
     """
     import numpy as np
 
@@ -366,11 +391,19 @@ def _load_kernels(mixture, stream: TextIO | None) -> float:
     nc = mixture.n_components
     return _announce_if_slow(
         lambda: flash(mixture, 1e6, 300.0, np.full(nc, 1.0 / nc)),
-        stream,
+        None if kernels_cached() else stream,
         "compiling the flash kernels (first use on this machine, about half a minute; later "
         "runs load them from the disk cache) ...",
         "kernels ready after {seconds:.1f} s",
     )
+
+
+def kernels_cached() -> bool:
+    """True if the disk cache holds compiled kernels of these kernel sources (numba's index
+    files, ``*.nbi``), so loading them is not a compilation."""
+    from .thermo.kernels._policy import cache_dir
+
+    return any(cache_dir().rglob("*.nbi"))
 
 
 def _announce_if_slow(
@@ -466,8 +499,11 @@ def _format_summary(summary, spec) -> str:
         f"cold {_mean(attrs.get('mean_iterations_cold_start'))})",
     ]
     if summary.blocks_computed:
+        overall = summary.cells_computed / summary.wall_time if summary.wall_time > 0 else 0.0
         lines.append(
-            f"  time: {summary.wall_time:.1f} s, {summary.cells_per_second:,.0f} cells/s on "
+            f"  time: {summary.wall_time:.1f} s = {overall:,.0f} cells/s overall "
+            f"({summary.cells_computed:,} cells); computing the chunks "
+            f"{summary.compute_seconds:.1f} s = {summary.cells_per_second:,.0f} cells/s on "
             f"{summary.workers} worker thread(s), {where}"
         )
     else:
@@ -475,7 +511,50 @@ def _format_summary(summary, spec) -> str:
     return "\n".join(lines)
 
 
-def _format_report(report) -> str:
+def _plain(value: float) -> str:
+    """A number to 6 significant digits without e-notation (2000000, 313.15, 0.25)."""
+    import numpy as np
+
+    value = float(value)
+    if value == 0.0 or not np.isfinite(value) or not 1e-6 <= abs(value) < 1e15:
+        return f"{value:g}"
+    return np.format_float_positional(float(f"{value:.6g}"), trim="-")
+
+
+class _Units:
+    """Shows SI pressures and temperatures in chosen units (checked at once: a bad unit is a
+    one-line error)."""
+
+    def __init__(self, pressure: str, temperature: str) -> None:
+        from ._errors import InputError
+        from .config import pressure_unit, temperature_unit
+
+        try:
+            self.pressure = pressure_unit(pressure, key="--pressure-unit")
+            self.temperature = temperature_unit(temperature, key="--temperature-unit")
+        except GridflashError as exc:
+            raise InputError(str(exc)) from None
+
+    def unit(self, dim: str, si_units: str) -> str:
+        shown = {"pressure": self.pressure, "temperature": self.temperature}.get(dim, si_units)
+        return "" if shown in ("", "1") else shown
+
+    def value(self, dim: str, si_value: float) -> str:
+        from .config import pressure_from_pa, temperature_from_kelvin
+
+        if dim == "pressure":
+            return _plain(pressure_from_pa(si_value, self.pressure))
+        if dim == "temperature":
+            return _plain(temperature_from_kelvin(si_value, self.temperature))
+        return _plain(si_value)
+
+    def text(self, dim: str, si_value: float) -> str:
+        """``20 bar``, ``40 degC``, ``0.25``."""
+        unit = self.unit(dim, "")
+        return f"{self.value(dim, si_value)} {unit}".rstrip()
+
+
+def _format_report(report, units: _Units) -> str:
     attrs = report.attrs
     stats = report.stats
     state = attrs.get("run_state", "?")
@@ -488,9 +567,11 @@ def _format_report(report) -> str:
         "axes:",
     ]
     for ax in report.axes:
-        units = "" if ax.units in ("", "1") else f" {ax.units}"
-        span = f"{ax.first:g}" if ax.size == 1 else f"{ax.first:g} .. {ax.last:g}"
-        lines.append(f"  {ax.name:<13} {ax.size:>6} points  {span}{units}  ({ax.long_name})")
+        unit = units.unit(ax.name, ax.units)
+        first, last = units.value(ax.name, ax.first), units.value(ax.name, ax.last)
+        span = first if ax.size == 1 else f"{first} .. {last}"
+        lines.append(f"  {ax.name:<13} {ax.size:>6} points  {span}{' ' + unit if unit else ''}"
+                     f"  ({ax.long_name})")
     lines.append(
         f"  chunks: {' x '.join(map(str, report.chunks))}, swept along {attrs.get('sweep', '?')}"
         f", warm starts {'on' if attrs.get('warm_start') else 'off'}"
@@ -512,7 +593,7 @@ def _format_report(report) -> str:
     for name, count in report.status_counts.items():
         lines.append(f"  {name}: {count:,}")
     for cell in report.unconverged:
-        where = ", ".join(f"{k}={v:g}" for k, v in cell.coords.items())
+        where = ", ".join(f"{k}={units.text(k, v)}" for k, v in cell.coords.items())
         lines.append(f"  at {where}: {cell.status} (residual {cell.residual:.3g})")
     if stats.unconverged > len(report.unconverged):
         lines.append(f"  ... and {stats.unconverged - len(report.unconverged):,} more")

@@ -26,13 +26,12 @@ from pathlib import Path
 import numpy as np
 
 from ._errors import GridflashError, InputError, StoreError
-from .analysis._saturation_lines import saturation_lines_part, write_saturation_lines
-from .compute._sample_sweep import sample_block
-from .compute._sweep import sweep_block
+from .analysis import saturation_lines
+from .compute import sample_block, sweep_block
 from .config import RunSpec, changed_keys
-from .plan._chunks import BlockId, ChunkPlan, check_chunks_aligned, chunk_plan
-from .plan._grid import block_inputs
+from .plan import BlockId, ChunkPlan, block_inputs, check_chunks_aligned, chunk_plan
 from .store import (
+    VARIABLES,
     BlockStats,
     block_stats,
     completed_blocks,
@@ -40,15 +39,29 @@ from .store import (
     finish_store,
     is_gridflash_store,
     mark_block_complete,
+    open_unconsolidated,
     read_root_attrs,
     remove_store,
     set_run_state,
     stored_block_stats,
     stored_chunks,
     write_block,
+    write_line_variables,
+    writer_lock,
 )
 
-__all__ = ["BlockSummary", "BlockTask", "Progress", "RunSummary", "compute_block", "run"]
+__all__ = [
+    "DEFAULT_MAX_CELLS",
+    "BlockSummary",
+    "BlockTask",
+    "Progress",
+    "RunSummary",
+    "check_grid_size",
+    "compute_block",
+    "run",
+    "saturation_lines_part",
+    "saturation_step",
+]
 
 #: Times dask re-runs a task that raised (a worker death is retried by the scheduler anyway,
 #: up to ``distributed.scheduler.allowed-failures``).
@@ -58,6 +71,10 @@ _CONNECT_TIMEOUT = 10.0
 _WORKER_TIMEOUT = 30.0
 #: Tasks in flight per worker thread (bounds the graph and the memory of finished results).
 _IN_FLIGHT_PER_THREAD = 2
+#: Largest grid run without an explicit ``max_cells`` (``--max-cells``): about 250 GB of store
+#: before compression for a 4-component fluid, and days on one machine; a bigger grid is far
+#: more often a mistyped count than a plan.
+DEFAULT_MAX_CELLS = 1_000_000_000
 
 
 @dataclass(frozen=True)
@@ -121,8 +138,10 @@ class RunSummary:
         Counts over the whole store (two-phase, single-phase, unconverged cells, iterations).
     wall_time : float
         Seconds this session took, cluster start-up included.
+    compute_seconds : float
+        Seconds from the first block submitted to the last one finished.
     cells_per_second : float
-        Cells computed in this session per second of computing.
+        ``cells_computed / compute_seconds``.
     workers : int
         Worker threads used.
     scheduler : str
@@ -137,6 +156,7 @@ class RunSummary:
     cells_computed: int
     stats: BlockStats
     wall_time: float
+    compute_seconds: float
     cells_per_second: float
     workers: int
     scheduler: str
@@ -183,6 +203,7 @@ def run(
     workers: int | None = None,
     scheduler_address: str | None = None,
     progress: Callable[[Progress], None] | None = None,
+    max_cells: int = DEFAULT_MAX_CELLS,
 ) -> RunSummary:
     """Compute a whole grid into its zarr store.
 
@@ -205,6 +226,9 @@ def run(
         path must be on a filesystem they share.
     progress : callable, optional
         Called with a :class:`Progress` after every finished block.
+    max_cells : int
+        Refuse a grid of more cells than this before planning it (default
+        :data:`DEFAULT_MAX_CELLS`).
 
     Returns
     -------
@@ -219,7 +243,8 @@ def run(
     GridflashError
         The scheduler cannot be reached or has no workers; a block lost its workers too often.
     InputError
-        Both ``resume`` and ``overwrite`` are set, or ``workers`` is not a positive integer.
+        Both ``resume`` and ``overwrite`` are set, ``workers`` or ``max_cells`` is not a
+        positive integer, or the grid has more than ``max_cells`` cells.
 
     Notes
     -----
@@ -233,8 +258,31 @@ def run(
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int)
                                 or workers < 1):
         raise InputError(f"workers={workers!r} must be a positive integer")
+    check_grid_size(spec, max_cells)
     path = Path(spec.run.output).expanduser().absolute()
     spec = replace(spec, run=replace(spec.run, output=path))
+    # One writer per store: a second run on this output is refused here, before it reads,
+    # deletes (overwrite) or writes anything.
+    with writer_lock(path):
+        return _run_locked(spec, path, started, resume=resume, overwrite=overwrite,
+                           workers=workers, scheduler_address=scheduler_address,
+                           progress=progress)
+
+
+def _run_locked(
+    spec: RunSpec,
+    path: Path,
+    started: float,
+    *,
+    resume: bool,
+    overwrite: bool,
+    workers: int | None,
+    scheduler_address: str | None,
+    progress: Callable[[Progress], None] | None,
+) -> RunSummary:
+    """:func:`run` once it holds the store's owner marker."""
+    if resume and is_gridflash_store(path):
+        spec = _with_stored_chunks(spec, path)
     plan = chunk_plan(spec)
     address = scheduler_address or spec.run.scheduler_address
     exists = path.exists() or path.is_symlink()
@@ -278,7 +326,7 @@ def run(
             compute_seconds = time.perf_counter() - t0
         # Bubble/dew pressure per line and cricondenbars (grid tables), on the run's workers
         # (here, in as many threads as workers were asked for, when no block was left).
-        write_saturation_lines(
+        saturation_step(
             path,
             compute_parts=None if client is None else functools.partial(_lines_on_workers, client),
             threads=local_workers,
@@ -306,10 +354,45 @@ def run(
         cells_computed=cells_computed,
         stats=stats,
         wall_time=session,
+        compute_seconds=compute_seconds,
         cells_per_second=cells_computed / compute_seconds if compute_seconds > 0 else 0.0,
         workers=threads,
         scheduler=address or spec.run.scheduler,
     )
+
+
+def check_grid_size(spec: RunSpec, max_cells: int = DEFAULT_MAX_CELLS) -> None:
+    """Refuse a grid larger than ``max_cells`` before anything is planned or written.
+
+    Raises
+    ------
+    InputError
+        Naming the cell count, the axes, the store size it would need and the override.
+    """
+    import math
+
+    if isinstance(max_cells, bool) or not isinstance(max_cells, int) or max_cells < 1:
+        raise InputError(f"max_cells={max_cells!r} must be a positive integer")
+    cells = math.prod(spec.shape)
+    if cells <= max_cells:
+        return
+    nc = len(spec.fluid.components)
+    per_cell = sum(np.dtype(v.dtype).itemsize * (nc if v.per_component else 1)
+                   for v in VARIABLES)
+    shape = " x ".join(f"{n:,} {d}" for n, d in zip(spec.shape, spec.dims, strict=True))
+    raise InputError(
+        f"the grid has {cells:,} cells ({shape}), more than the limit of {max_cells:,}; it "
+        f"would need about {_bytes(cells * per_cell)} of store before compression; check the "
+        f"axis counts, or raise the limit with --max-cells {cells}"
+    )
+
+
+def _bytes(n: float) -> str:
+    for unit in ("bytes", "kB", "MB", "GB", "TB"):
+        if n < 1000 or unit == "TB":
+            return f"{n:,.0f} {unit}" if unit == "bytes" else f"{n:,.1f} {unit}"
+        n /= 1000
+    return f"{n:,.1f} PB"  # pragma: no cover - the loop returns at TB
 
 
 # --------------------------------------------------------------------------------------------
@@ -342,6 +425,18 @@ def _check_resumable(path: Path, spec: RunSpec, plan: ChunkPlan) -> None:
         )
     for name, (dims, shape, chunks) in stored_chunks(path).items():
         check_chunks_aligned(plan, name, dims, shape, chunks)
+
+
+def _with_stored_chunks(spec: RunSpec, path: Path) -> RunSpec:
+    """The run with the store's chunk lengths for every dimension the config leaves to the
+    defaults, so a store resumes although the default chunking changed since it was made."""
+    stored = read_root_attrs(path).get("chunks")
+    dims = chunk_plan(spec).dims
+    if not isinstance(stored, list) or len(stored) != len(dims):
+        return spec  # the resume checks say what is wrong with the store
+    given = dict(spec.run.chunks)
+    chunks = tuple((d, given.get(d, int(n))) for d, n in zip(dims, stored, strict=True))
+    return replace(spec, run=replace(spec.run, chunks=chunks))
 
 
 def _changed_keys(stored: object, current: str) -> list[str]:
@@ -383,7 +478,9 @@ def _connect(address: str | None, kind: str, n_workers: int) -> Iterator[object]
         # port instead of 8787, which another cluster may hold.
         dashboard_address="127.0.0.1:0",
         scheduler_kwargs={"dashboard": False},
-        silence_logs=logging.ERROR,
+        # Task failures come back to the driver, which reports each in one line; the workers'
+        # own "Compute Failed" logs would print every attempt's traceback on stderr first.
+        silence_logs=logging.CRITICAL,
     )
     try:
         client = Client(cluster, set_as_default=False)
@@ -498,6 +595,60 @@ def _drain(
         futures.clear()
         raise
     return out
+
+
+def saturation_step(
+    path: str | os.PathLike[str],
+    *,
+    compute_parts: Callable[[str, int], list] | None = None,
+    threads: int | None = None,
+):
+    """The run's post-step: a grid store's saturation lines, computed and written into it.
+
+    By default the lines are computed here, in ``threads`` threads (default one per core). A run
+    passes ``compute_parts(path, n_compositions)``, which computes them on its workers: part
+    ``k`` of ``n`` (:func:`saturation_lines_part`, ``n`` at most ``n_compositions``) on each of
+    ``n`` worker processes, in that worker's threads. Every line and composition is computed
+    independently of the others, so the answer does not depend on the parts or threads. A store
+    without a pressure x temperature grid (a sampled table) is left as it is (returns None).
+    Returns the lines written (an ``xarray.Dataset``, see :func:`gridflash.saturation_lines`).
+    """
+    import xarray as xr
+
+    store = str(path)
+    ds = open_unconsolidated(store)
+    try:
+        dims = tuple(ds.phase_count.dims)
+        if dims[:2] != ("pressure", "temperature"):
+            return None
+        comp_dim = dims[2]
+        n_comp = ds.sizes[comp_dim]
+    finally:
+        ds.close()
+    if compute_parts is None:
+        parts = [saturation_lines_part(store, 0, 1, threads)]
+    else:
+        parts = compute_parts(store, n_comp)
+    n_parts = len(parts)
+    lines = xr.concat(parts, dim=comp_dim) if n_parts > 1 else parts[0]
+    order = np.concatenate([np.arange(k, n_comp, n_parts) for k in range(n_parts)])
+    lines = lines.isel({comp_dim: np.argsort(order)})
+    write_line_variables(store, lines)
+    return lines
+
+
+def saturation_lines_part(path: str, part: int, n_parts: int, threads: int | None = None):
+    """:func:`gridflash.saturation_lines` of part ``part`` of ``n_parts`` of a store's
+    compositions: every ``n_parts``-th composition from ``part`` on (neighbouring compositions
+    cost about the same, so interleaved parts cost alike), in ``threads`` threads (default one
+    per core). A task: reads the store, returns a small Dataset, writes nothing."""
+    ds = open_unconsolidated(path)
+    try:
+        comp_dim = ds.phase_count.dims[2]
+        table = ds.isel({comp_dim: slice(part, None, n_parts)})
+        return saturation_lines(table, threads=threads).load()
+    finally:
+        ds.close()
 
 
 def _lines_on_workers(client, path: str, n_compositions: int) -> list:

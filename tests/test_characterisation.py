@@ -37,12 +37,6 @@ from gridflash.thermo._characterisation import (
     equal_mass_groups,
 )
 from gridflash.thermo._characterisation_report import fluid_table_text, fluid_table_toml
-from gridflash.thermo._characterisation_split import (
-    constant_watson_sg,
-    gamma_split,
-    interval_moments,
-    scn_lower_boundary,
-)
 from gridflash.thermo._correlations import (
     _KATZ_FIROOZABADI,
     chueh_prausnitz_kij,
@@ -58,6 +52,12 @@ from gridflash.thermo._correlations import (
     watson_k,
     whitson_specific_gravity,
     whitson_watson_k,
+)
+from gridflash.thermo._plus_fraction import (
+    constant_watson_sg,
+    gamma_fractions,
+    interval_moments,
+    scn_lower_boundary,
 )
 
 # ------------------------------------------------------------------------------------------------
@@ -303,39 +303,39 @@ def test_exponential_case_closed_form():
     # alpha = 1: exponential density. Independent closed forms for the moles and mean of [a, b):
     # P = e^-ya - e^-yb, mean = eta + beta + ((ya e^-ya - yb e^-yb) / P) beta.
     z_plus, m_plus = 0.3, 180.0
-    split = gamma_split(7, z_plus, m_plus, max_carbon=20)
+    fractions = gamma_fractions(7, z_plus, m_plus, max_carbon=20)
     eta, beta = 92.0, m_plus - 92.0
-    edges = split.boundaries
-    for i in range(len(split.carbon_number) - 1):
+    edges = fractions.boundaries
+    for i in range(len(fractions.carbon_number) - 1):
         ya, yb = (edges[i] - eta) / beta, (edges[i + 1] - eta) / beta
         p = math.exp(-ya) - math.exp(-yb)
         mean = eta + beta + beta * (ya * math.exp(-ya) - yb * math.exp(-yb)) / p
-        assert split.mole_fraction[i] == pytest.approx(z_plus * p, rel=1e-12)
-        assert split.mw[i] == pytest.approx(mean, rel=1e-12)
+        assert fractions.mole_fraction[i] == pytest.approx(z_plus * p, rel=1e-12)
+        assert fractions.mw[i] == pytest.approx(mean, rel=1e-12)
     # Memoryless tail: mean of [a, inf) is a + beta.
-    assert split.analytic_tail_mw == pytest.approx(edges[-2] + beta, rel=1e-12)
+    assert fractions.analytic_tail_mw == pytest.approx(edges[-2] + beta, rel=1e-12)
 
 
 def test_split_boundaries_and_means():
-    split = gamma_split(7, 0.36, 215.0)
-    n = split.carbon_number
+    fractions = gamma_fractions(7, 0.36, 215.0)
+    n = fractions.carbon_number
     assert n[0] == 7 and n[-1] == 45
     assert np.array_equal(n, np.arange(7, 46))
     # Whitson & Brule eta = 14 n - 6 (from memory): 92 g/mol for C7+.
-    assert split.eta == 92.0
-    assert np.array_equal(split.boundaries[1:-1], 14.0 * np.arange(8, 46) - 6.0)
+    assert fractions.eta == 92.0
+    assert np.array_equal(fractions.boundaries[1:-1], 14.0 * np.arange(8, 46) - 6.0)
     # Every fraction's molar mass lies inside its interval.
-    assert np.all(split.mw > split.boundaries[:-1])
-    assert np.all(split.mw < split.boundaries[1:])
+    assert np.all(fractions.mw > fractions.boundaries[:-1])
+    assert np.all(fractions.mw < fractions.boundaries[1:])
     # Exponential distribution: mole fractions fall with carbon number (except the tail).
-    assert np.all(np.diff(split.mole_fraction[:-1]) < 0)
+    assert np.all(np.diff(fractions.mole_fraction[:-1]) < 0)
 
 
 def test_split_closure_agrees_with_distribution_tail():
     # The tail fraction's molar mass from the mass balance equals the distribution's own tail mean.
     for m_plus in (130.0, 215.0, 400.0):
-        split = gamma_split(7, 0.2, m_plus, alpha=1.3)
-        assert split.mw[-1] == pytest.approx(split.analytic_tail_mw, rel=1e-7)
+        fractions = gamma_fractions(7, 0.2, m_plus, alpha=1.3)
+        assert fractions.mw[-1] == pytest.approx(fractions.analytic_tail_mw, rel=1e-7)
 
 
 def test_split_moments_match_plus_fraction_before_closure():
@@ -352,14 +352,14 @@ def test_split_moments_match_plus_fraction_before_closure():
 
 def test_split_stops_when_tail_is_negligible():
     # A light C7+ (M = 105 g/mol, beta = 13): the exponential tail beyond C45 is e^-30 of the moles.
-    split = gamma_split(7, 0.1, 105.0, max_carbon=45)
-    last = int(split.carbon_number[-1])
+    fractions = gamma_fractions(7, 0.1, 105.0, max_carbon=45)
+    last = int(fractions.carbon_number[-1])
     assert last < 45
     beta = 105.0 - 92.0
     tail_share = math.exp(-(14 * last - 6 - 92) / beta)
     next_share = math.exp(-(14 * (last + 1) - 6 - 92) / beta)
     assert tail_share >= 1e-6 > next_share
-    assert split.mole_fraction.sum() == pytest.approx(0.1, rel=1e-15)
+    assert fractions.mole_fraction.sum() == pytest.approx(0.1, rel=1e-15)
 
 
 @settings(max_examples=60, deadline=None)
@@ -372,8 +372,8 @@ def test_split_stops_when_tail_is_negligible():
 )
 def test_split_preserves_moles_and_mass(n_plus, z_plus, excess, alpha, max_extra):
     m_plus = 14.0 * n_plus - 6.0 + excess
-    split = gamma_split(n_plus, z_plus, m_plus, max_carbon=n_plus + max_extra, alpha=alpha)
-    z, m = split.mole_fraction, split.mw
+    fractions = gamma_fractions(n_plus, z_plus, m_plus, max_carbon=n_plus + max_extra, alpha=alpha)
+    z, m = fractions.mole_fraction, fractions.mw
     assert abs(z.sum() - z_plus) <= 1e-12 * z_plus
     assert abs((z * m).sum() - z_plus * m_plus) <= 1e-12 * z_plus * m_plus
     assert np.all(z > 0) and np.all(np.diff(m) > 0)
@@ -381,13 +381,13 @@ def test_split_preserves_moles_and_mass(n_plus, z_plus, excess, alpha, max_extra
 
 def test_split_rejects_bad_input():
     with pytest.raises(InputError, match=r"88\.0.*eta=92\.0"):
-        gamma_split(7, 0.3, 88.0)
+        gamma_fractions(7, 0.3, 88.0)
     with pytest.raises(InputError, match="max_carbon=7"):
-        gamma_split(7, 0.3, 200.0, max_carbon=7)
+        gamma_fractions(7, 0.3, 200.0, max_carbon=7)
     with pytest.raises(InputError, match="alpha=-1"):
-        gamma_split(7, 0.3, 200.0, alpha=-1.0)
+        gamma_fractions(7, 0.3, 200.0, alpha=-1.0)
     with pytest.raises(InputError, match="eta=120"):
-        gamma_split(7, 0.3, 200.0, eta=120.0)
+        gamma_fractions(7, 0.3, 200.0, eta=120.0)
 
 
 # ================================================================================================
@@ -396,8 +396,8 @@ def test_split_rejects_bad_input():
 
 
 def test_constant_kw_reproduces_plus_sg_and_matches_root_finder():
-    split = gamma_split(7, 0.36, 215.0)
-    z, m = split.mole_fraction, split.mw
+    fractions = gamma_fractions(7, 0.36, 215.0)
+    z, m = fractions.mole_fraction, fractions.mw
     sg, kw = constant_watson_sg(z, m, 0.845)
     # Volume-additive mixture of the fractions gives the plus-fraction's SG.
     assert (z * m).sum() / (z * m / sg).sum() == pytest.approx(0.845, rel=1e-12)
@@ -524,7 +524,7 @@ def test_measured_scn_fractions(invented_oil_with_scn):
     assert abs(pseudo_z.sum() - heavy_z) <= 1e-12 * heavy_z
     assert abs((pseudo_z * pseudo_mw).sum() - heavy_mass) <= 1e-12 * heavy_mass
     # Split of C10+ starts at eta = 14 * 10 - 6.
-    assert fluid.provenance["split_eta"] == 134.0
+    assert fluid.provenance["gamma_eta"] == 134.0
 
 
 def test_normalisation_of_rounded_analysis():

@@ -142,7 +142,10 @@ def test_inspect(cold_store, tmp_path):
     assert result.exit_code == 0, result.stderr
     out = result.stdout
     assert "run state: complete" in out and "4 of 4 chunks complete" in out
-    assert re.search(r"pressure\s+6 points\s+2e\+06 \.\. 2\.7e\+07 Pa", out)
+    # in the config's own units (bar, degC), without e-notation
+    assert re.search(r"pressure\s+6 points\s+20 \.\. 270 bar\s", out)
+    assert re.search(r"temperature\s+4 points\s+40 \.\. 160 degC\s", out)
+    assert "e+0" not in out
     assert re.search(rf"two-phase\s+{two}\b", out)
     assert "convergence: 0 unconverged cell(s)" in out
     # an unconverged cell is listed with its coordinates and status name
@@ -156,7 +159,35 @@ def test_inspect(cold_store, tmp_path):
     out = invoke("inspect", copy).stdout
     assert "convergence: 1 unconverged cell(s)" in out
     p, t, r = (float(ds.pressure[2]), float(ds.temperature[1]), float(ds.mixing_ratio[3]))
-    assert f"at pressure={p:g}, temperature={t:g}, mixing_ratio={r:g}: max_iterations" in out
+    assert (f"at pressure={p / 1e5:g} bar, temperature={t - 273.15:g} degC, mixing_ratio={r:g}: "
+            "max_iterations") in out
+
+
+@pytest.mark.parametrize(
+    ("options", "pressure", "temperature"),
+    [
+        # 20 bar = 2e6 Pa = 290.075 psia (1 psi = 6894.757293168 Pa, NIST SP 811 App. B.8);
+        # 40 degC = 104 degF = 313.15 K (NIST SP 811 Sec. 4.2.1.1)
+        (["--pressure-unit", "psia", "--temperature-unit", "degF"], "290.075 .. 3916.02 psia",
+         "104 .. 320 degF"),
+        (["--pressure-unit", "Pa", "--temperature-unit", "K"], "2000000 .. 27000000 Pa",
+         "313.15 .. 433.15 K"),
+        (["--pressure-unit", "MPa"], "2 .. 27 MPa", "40 .. 160 degC"),
+    ],
+)
+def test_inspect_units_option(cold_store, options, pressure, temperature):
+    _, path, _ = cold_store
+    result = invoke("inspect", path, *options)
+    assert result.exit_code == 0, result.stderr
+    assert re.search(rf"pressure\s+6 points\s+{re.escape(pressure)}\s", result.stdout)
+    assert re.search(rf"temperature\s+4 points\s+{re.escape(temperature)}\s", result.stdout)
+
+
+def test_inspect_bad_unit_is_one_line(cold_store):
+    _, path, _ = cold_store
+    result = invoke("inspect", path, "--pressure-unit", "psig")
+    assert result.exit_code == 1
+    assert result.stderr.count("\n") == 1 and "psig" in result.stderr
 
 
 def test_inspect_unfinished_store(tmp_path):
@@ -208,3 +239,249 @@ def test_installed_entry_point(tmp_path):
                            capture_output=True, text=True, timeout=120)
     assert again.returncode == 1
     assert again.stderr.startswith("Error: output ") and again.stderr.count("\n") == 1
+
+
+def test_compilation_announced_only_when_the_cache_is_empty(tmp_path, monkeypatch):
+    """A slow kernel load with compiled kernels in the disk cache is not called a compilation;
+    with an empty cache folder it is."""
+    import gridflash.thermo
+    from gridflash import cli as cli_module
+
+    def slow_flash(*args, **kwargs):
+        time.sleep(1.3)  # longer than the 1 s after which a compilation is announced
+
+    monkeypatch.setattr(gridflash.thermo, "flash", slow_flash)
+    mixture = gridflash.Mixture(["C1", "nC4"])
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "empty"))
+    assert not cli_module.kernels_cached()
+    out = io.StringIO()
+    cli_module._load_kernels(mixture, out)
+    assert out.getvalue().startswith("compiling the flash kernels")
+    folder = tmp_path / "filled" / f"gridflash-kernels-{_source_key()}" / "kernels_x"
+    folder.mkdir(parents=True)
+    (folder / "flash.flash_batch-105.py311.nbi").write_bytes(b"")  # a numba index file
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "filled"))
+    assert cli_module.kernels_cached()
+    out = io.StringIO()
+    cli_module._load_kernels(mixture, out)
+    assert out.getvalue() == ""
+
+
+def _source_key() -> str:
+    from gridflash.thermo.kernels._policy import source_key
+
+    return source_key()
+
+
+def test_summary_rates_are_cells_over_times(tmp_path):
+    """The summary's cells/s figures are the printed cell count over the printed times."""
+    config = write_config(tmp_path)
+    result = invoke("run", config)
+    assert result.exit_code == 0, result.stderr
+    match = re.search(r"time: ([\d.]+) s = ([\d,]+) cells/s overall \(([\d,]+) cells\); "
+                      r"computing the chunks ([\d.]+) s = ([\d,]+) cells/s", result.stdout)
+    assert match, result.stdout
+    wall, overall, cells, compute, rate = (float(g.replace(",", "")) for g in match.groups())
+    assert cells == 120
+    # the times are printed to 0.1 s, the rates to 1 cell/s
+    for seconds, shown in ((wall, overall), (compute, rate)):
+        low, high = cells / (seconds + 0.05), cells / max(seconds - 0.05, 1e-9)
+        assert low - 0.5 <= shown <= high + 0.5
+    assert compute <= wall
+
+
+# --------------------------------------------------------------------------------------------
+# Crash paths: each refused in one line before any work, or run to the end
+# --------------------------------------------------------------------------------------------
+
+_PSEUDO = ('{{ name = "HEAVY", tc = {tc}, tc_unit = "K", pc = 15.0, pc_unit = "bar", '
+           'omega = 0.6, mw = 250.0 }}')
+
+
+def _with_pseudo(config, tc: str) -> None:
+    text = config.read_text().replace('"nC10"]', '"nC10", ' + _PSEUDO.format(tc=tc) + "]")
+    config.write_text(text.replace("nC4 = 0.20, nC10 = 0.35", "nC4 = 0.20, nC10 = 0.30, "
+                                   "HEAVY = 0.05"))
+
+
+@pytest.mark.parametrize("tc", ["1e6", "1e300", "0.5"])
+def test_absurd_critical_temperature_refused_by_the_loader(tmp_path, tc):
+    """tc = 1e6 K used to pass the loader and fail only when the finished store was read back;
+    one validation (gridflash.Component) now refuses it before anything runs."""
+    config = write_config(tmp_path)
+    _with_pseudo(config, tc)
+    result = invoke("run", config)
+    assert result.exit_code == 1
+    assert result.stderr.count("\n") == 1 and "Traceback" not in result.stderr
+    assert "fluid.components[4].tc" in result.stderr and "outside 1..3000 K" in result.stderr
+    assert not (tmp_path / "out.zarr").exists()
+
+
+def test_every_accepted_pseudo_component_reads_back_from_the_store(tmp_path):
+    """What the loader accepts, the store reader rebuilds (a 650 K pseudo-component)."""
+    config = write_config(tmp_path)
+    _with_pseudo(config, "650.0")
+    result = invoke("run", config)
+    assert result.exit_code == 0, result.stderr
+    mixture = gridflash.mixture_from_store(tmp_path / "out.zarr")
+    assert mixture.components[4].tc == 650.0 and mixture.components[4].pc == 1.5e6
+
+
+def test_normalised_fractions_whose_sum_overflows(tmp_path):
+    """Relative amounts of 1.7e308 each (their sum overflows a double) normalise to the same
+    fractions as 1 : 1 : 1 : 1 instead of failing in every chunk."""
+    config = write_config(tmp_path)
+    text = config.read_text().replace(
+        "mole_fractions = { CO2 = 0.75, C1 = 0.22, nC4 = 0.03 }",
+        "mole_fractions = { CO2 = 1.7e308, C1 = 1.7e308, nC4 = 1.7e308, nC10 = 1.7e308 }\n"
+        "normalise = true")
+    config.write_text(text)
+    result = invoke("run", config)
+    assert result.exit_code == 0, result.stderr
+    ds = xr.open_zarr(tmp_path / "out.zarr")
+    np.testing.assert_array_equal(ds.stream_composition.values[1], [0.25] * 4)
+    assert bool(ds.converged.all())
+
+
+def test_huge_grid_refused_before_planning(tmp_path):
+    """6e9 cells (each axis count within its own limit): refused at once, in one line, with the
+    store size it would need and the override; --max-cells also lowers the limit."""
+    config = write_config(tmp_path, grid={"p_start": 20.0, "p_stop": 270.0, "p_count": 60_000,
+                                          "t_count": 1000, "c_count": 100})
+    result = invoke("run", config)
+    assert result.exit_code == 1 and result.stderr.count("\n") == 1
+    assert "6,000,000,000 cells" in result.stderr and "--max-cells 6000000000" in result.stderr
+    assert "TB of store" in result.stderr
+    assert not (tmp_path / "out.zarr").exists()
+    small = write_config(tmp_path, "small.toml")
+    limited = invoke("run", small, "--max-cells", "100")
+    assert limited.exit_code == 1 and "more than the limit of 100" in limited.stderr
+    assert invoke("run", small, "--max-cells", "120", "-q").exit_code == 0
+
+
+# --------------------------------------------------------------------------------------------
+# One writer per store; creation leftovers
+# --------------------------------------------------------------------------------------------
+
+
+def _hold_lock(store) -> subprocess.Popen:
+    """Another process holding the store's owner marker (as a running `gridflash run` does)."""
+    code = ("import sys, time\nfrom gridflash.store._lock import writer_lock\n"
+            "with writer_lock(sys.argv[1]):\n    print('held', flush=True)\n    time.sleep(60)\n")
+    holder = subprocess.Popen([sys.executable, "-c", code, str(store)], stdout=subprocess.PIPE,
+                              text=True)
+    assert holder.stdout.readline().strip() == "held"
+    return holder
+
+
+@pytest.mark.parametrize("extra", [[], ["--overwrite"], ["--resume"]])
+def test_second_writer_refused_in_one_line(tmp_path, extra):
+    """While another process writes the store, a second run -- even with --overwrite -- is
+    refused in one line and leaves the store as it was."""
+    config = write_config(tmp_path)
+    assert invoke("run", config, "-q").exit_code == 0
+    store = tmp_path / "out.zarr"
+    before = sorted(p.relative_to(store) for p in store.rglob("*"))
+    holder = _hold_lock(store)
+    try:
+        result = invoke("run", config, *extra)
+    finally:
+        holder.kill()
+        holder.wait()
+    assert result.exit_code == 1, result.stdout
+    assert result.stderr.count("\n") == 1 and "Traceback" not in result.stderr
+    assert f"another gridflash run (process {holder.pid} on " in result.stderr
+    assert "is writing" in result.stderr
+    assert sorted(p.relative_to(store) for p in store.rglob("*")) == before
+    assert gridflash.open_table(store).attrs["run_state"] == "complete"
+
+
+def test_second_writer_refused_while_the_store_is_created(tmp_path):
+    """Two runs started on one new output: the one without the marker is refused in one line
+    (it used to fail with "Directory not empty")."""
+    config = write_config(tmp_path)
+    holder = _hold_lock(tmp_path / "out.zarr")
+    try:
+        result = invoke("run", config)
+    finally:
+        holder.kill()
+        holder.wait()
+    assert result.exit_code == 1 and result.stderr.count("\n") == 1
+    assert "is writing" in result.stderr and not (tmp_path / "out.zarr").exists()
+
+
+def test_marker_of_a_killed_run_is_taken_over(tmp_path):
+    """A marker left by a run killed with -9 (its process is gone) does not block the store."""
+    config = write_config(tmp_path)
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    import json
+    import socket
+
+    marker = tmp_path / ".out.zarr.writer"
+    marker.write_text(json.dumps({"host": socket.gethostname(), "pid": int(dead.stdout),
+                                  "started": "2026-01-01T00:00:00+00:00"}))
+    result = invoke("run", config, "-q")
+    assert result.exit_code == 0, result.stderr
+    assert not marker.exists()
+
+
+def test_marker_of_another_host_names_the_file_to_delete(tmp_path):
+    import json
+
+    config = write_config(tmp_path)
+    marker = tmp_path / ".out.zarr.writer"
+    marker.write_text(json.dumps({"host": "elsewhere.invalid", "pid": 1, "started": "x"}))
+    result = invoke("run", config)
+    assert result.exit_code == 1 and result.stderr.count("\n") == 1
+    assert "on elsewhere.invalid" in result.stderr and str(marker) in result.stderr
+
+
+def test_creation_leftovers_of_a_killed_run_are_removed(tmp_path):
+    """`.NAME.creating-*` folders left by a run killed while creating the store are removed by
+    the next run on that output (which holds the marker, so nobody else is creating)."""
+    config = write_config(tmp_path)
+    for suffix in ("1a2b3c4d", "deadbeef"):
+        leftover = tmp_path / f".out.zarr.creating-{suffix}"
+        leftover.mkdir()
+        (leftover / "zarr.json").write_text("{}")
+    (tmp_path / ".other.zarr.creating-1a2b3c4d").mkdir()  # another store's: left alone
+    assert invoke("run", config, "-q").exit_code == 0
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(".")) == [
+        ".other.zarr.creating-1a2b3c4d"]
+
+
+_FULL_DISK = """\
+import errno
+import os
+
+if os.environ.get("GRIDFLASH_TEST_FULL_DISK"):
+    import gridflash.runner
+
+    def _full(path, plan, block, result):
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    gridflash.runner.write_block = _full
+"""
+
+
+@pytest.mark.parametrize("scheduler", ["threads",
+                                       pytest.param("processes", marks=pytest.mark.slow)])
+def test_full_disk_is_one_line(tmp_path, scheduler):
+    """ENOSPC from every block's write (a full disk), in the driver's threads or in worker
+    processes (patched through sitecustomize, which every Python process runs): one line on
+    stderr -- no worker "Compute Failed" tracebacks before it -- and exit status 1."""
+    import os
+
+    site = tmp_path / "site"
+    site.mkdir()
+    (site / "sitecustomize.py").write_text(_FULL_DISK)
+    config = write_config(tmp_path, scheduler=scheduler)
+    env = {**os.environ, "GRIDFLASH_TEST_FULL_DISK": "1",
+           "PYTHONPATH": os.pathsep.join([str(site), *sys.path])}
+    done = subprocess.run([sys.executable, "-m", "gridflash.cli", "run", str(config)],
+                          capture_output=True, text=True, timeout=180, env=env)
+    assert done.returncode == 1
+    assert done.stderr.count("\n") == 1, done.stderr
+    assert done.stderr.startswith("Error: writing block (")
+    assert "No space left on device" in done.stderr and "--resume" in done.stderr

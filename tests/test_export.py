@@ -286,8 +286,14 @@ def test_cli_export(sample_store, tmp_path):
     (["export", "{store}", "--out", "{folder}/exists.parquet"], 1, "already exists"),
     (["export", "{store}", "--out", "{folder}/x.parquet", "--split", "0.5,0.5"], 2,
      "Invalid value for '--split'"),
-    (["export", "{store}", "--out", "{folder}/x.parquet", "--format", "csv"], 2,
+    (["export", "{store}", "--out", "{folder}/x.parquet", "--format", "json"], 2,
      "Invalid value for '--format'"),
+    # a format that contradicts the suffix, or no way to tell the format: refused
+    (["export", "{store}", "--out", "{folder}/x.parquet", "--format", "csv"], 1,
+     "does not match 'x.parquet'"),
+    (["export", "{store}", "--out", "{folder}/ok.csv", "--format", "parquet"], 1,
+     "does not match 'ok.csv'"),
+    (["export", "{store}", "--out", "{folder}/x.dat"], 1, "cannot tell the format"),
     (["export", "{store}"], 2, "Missing option '--out'"),
 ])
 def test_cli_export_errors(sample_store, tmp_path, args, code, phrase):
@@ -297,8 +303,44 @@ def test_cli_export_errors(sample_store, tmp_path, args, code, phrase):
     assert phrase in result.stderr and "Traceback" not in result.stderr
     if code == 1:
         assert result.stderr.count("\n") == 1
-    assert not (tmp_path / "x.parquet").exists()
+    assert not (tmp_path / "x.parquet").exists() and not (tmp_path / "ok.csv").exists()
+    assert not (tmp_path / "x.dat").exists()
     assert (tmp_path / "exists.parquet").read_text() == "keep"
+
+
+@pytest.mark.parametrize(("name", "extra"), [("cli.csv", []), ("cli.txt", ["--format", "csv"])])
+def test_cli_csv_export_equals_parquet(grid_store, tmp_path, name, extra):
+    """A CSV (chosen by the suffix or --format) holds the Parquet export's values exactly
+    (floats in 17 significant digits read back to the same doubles; NaN as an empty field),
+    and its units sidecar gives each column's units. Reference reader: Python's csv module."""
+    import csv
+    import math
+
+    parquet, doc = _read(_export(grid_store, tmp_path / "ref.parquet"))
+    out = tmp_path / name
+    result = _invoke("export", grid_store, "--out", out, *extra)
+    assert result.exit_code == 0, result.stderr
+    assert "(csv)" in result.stdout
+    with out.open(newline="") as handle:
+        rows = list(csv.reader(handle))
+    header, body = rows[0], rows[1:]
+    assert header == list(parquet) and len(body) == 120
+    for j, column in enumerate(header):
+        expected = parquet[column]
+        for i, row in enumerate(body):
+            got, want = row[j], expected[i]
+            if isinstance(want, (bool, np.bool_)):
+                assert got == str(bool(want)), column
+            elif isinstance(want, (float, np.floating)):
+                assert (got == "" and math.isnan(want)) or float(got) == want, (column, i)
+            else:
+                assert got == str(want), column
+    units = {r["name"]: r["units"] for r in csv.DictReader((tmp_path / f"{name}.units.csv")
+                                                            .open(newline=""))}
+    assert units == {c["name"]: c["units"] for c in doc["columns"]}
+    assert units["pressure"] == "Pa" and units["liquid_density"] == "kg m-3"
+    again = _invoke("export", grid_store, "--out", out, *extra)
+    assert again.exit_code == 1 and "already exists" in again.stderr
 
 
 def test_cli_run_and_export_a_sampling_config(tmp_path):

@@ -176,4 +176,4 @@ def test_characterised_oil_full_grid_run_has_no_flagged_cell(tmp_path):
     assert 0.2 < float((ds["phase_count"] == 2).mean()) < 0.9
     prov = json.loads(ds.attrs["fluid_provenance"])
     assert prov["heavy_end.correlation"] == "kesler-lee"
-    assert "gamma" in prov["heavy_end.split"]
+    assert "gamma" in prov["heavy_end.distribution"]

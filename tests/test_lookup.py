@@ -53,20 +53,23 @@ def test_grid_nodes_return_stored_values(binary):
 
 
 def test_interpolation_equals_scipy_regular_grid_interpolator(binary):
-    """Reference: scipy.interpolate.RegularGridInterpolator(method="linear") on the same axes."""
+    """Reference: scipy.interpolate.RegularGridInterpolator(method="linear") on the same axes
+    (everywhere but across a single-phase label change, interpolated by state instead: see
+    test_single_phase_point_between_differently_labelled_nodes)."""
     ds = binary
     p, t, r = _random_points(ds, 400)
     out = gridflash.lookup(ds, p, t, r)
     axes = (ds.pressure.values, ds.temperature.values, ds.mixing_ratio.values)
     compared = 0
+    plain = ~out.label_change.values
     for name in ("vapour_fraction", "liquid_density", "vapour_density", "liquid_viscosity"):
         ref = RegularGridInterpolator(axes, ds[name].values, method="linear")(
             np.column_stack([p, t, r]))
-        finite = np.isfinite(ref)
+        finite = np.isfinite(ref) & plain
         compared += int(finite.sum())
         np.testing.assert_allclose(out[name].values[finite], ref[finite], rtol=1e-12, atol=0)
         # NaN (a phase absent at a surrounding node) propagates as it does in scipy
-        assert np.all(np.isnan(out[name].values[~finite]))
+        assert np.all(np.isnan(out[name].values[~finite & plain]))
     assert compared > 800
     # per-component fields: each component's K-value interpolated the same way
     ref_k = RegularGridInterpolator(axes, ds.k_value.values[..., 1], method="linear")(
@@ -250,3 +253,63 @@ def test_load_config_is_the_binary_fluid():
     spec = load_config_text(BINARY_CONFIG)
     assert spec.fluid.names == ("C1", "C3")
     np.testing.assert_allclose(spec.composition.feed_array()[:, 0], [0.0, 0.2, 0.5, 0.8, 1.0])
+
+
+@pytest.fixture(scope="module")
+def condensate(tmp_path_factory) -> xr.Dataset:
+    """The bundled (invented) gas condensate, 16 pressures x 5 temperatures, run in threads."""
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[1] / "configs" / "gas_condensate.toml").read_text()
+    text = text.replace('scheduler = "processes"', 'scheduler = "threads"')
+    return gridflash.open_table(build_store(tmp_path_factory, "condensate", text)).load()
+
+
+@pytest.mark.parametrize(("psia", "degf"), [(6000.0, 125.0), (6500.0, 140.0), (7000.0, 110.0),
+                                            (7750.0, 149.0)])
+def test_single_phase_point_between_differently_labelled_nodes(condensate, psia, degf):
+    """Between a liquid-like and a vapour-like single-phase node (the condensate above its
+    cricondenbar, 100 and 150 degF) the lookup gives the single phase: vapour fraction 0 or 1,
+    the phase's density and viscosity within 1% of an exact flash at the point (reference:
+    gridflash.flash of the table's fluid; the remaining difference is linear interpolation over
+    50 degF), the feed as its composition, filed under the label that flash gives -- not a
+    vapour fraction of 0.5 and NaN densities."""
+    ds = condensate
+    out = gridflash.lookup(ds, psia, degf, 0, pressure_unit="psia", temperature_unit="degF")
+    assert out.label_change.item() and not out.boundary.item() and out.phase_count.item() == 1
+    exact = gridflash.flash(mixture_from_store(ds), psia * PSI_IN_PA,
+                            (degf - 32.0) * 5.0 / 9.0 + 273.15, ds.feed_composition.values[0])
+    assert exact.phase_count[0] == 1
+    phase = "vapour" if exact.phase_label[0] == 1 else "liquid"
+    other = "liquid" if phase == "vapour" else "vapour"
+    assert out.phase_label.item() == exact.phase_label[0]
+    assert out.vapour_fraction.item() == exact.vapour_fraction[0] == (phase == "vapour")
+    exact_phase = getattr(exact, phase)
+    assert out[f"{phase}_density"].item() == pytest.approx(exact_phase.mass_density[0], rel=0.01)
+    assert out[f"{phase}_viscosity"].item() == pytest.approx(exact_phase.viscosity[0], rel=0.01)
+    assert out[f"{phase}_molar_mass"].item() == pytest.approx(exact_phase.molar_mass[0],
+                                                              rel=1e-12)
+    np.testing.assert_allclose(out[f"{phase}_composition"].values[0],
+                               ds.feed_composition.values[0], rtol=0, atol=1e-14)
+    for name in ("density", "viscosity", "composition"):
+        assert np.isnan(out[f"{other}_{name}"].values).all()
+    # refine (the exact flash) agrees on the label and the vapour fraction
+    refined = gridflash.lookup(ds, psia, degf, 0, pressure_unit="psia", temperature_unit="degF",
+                               refine=True)
+    assert refined.phase_label.item() == out.phase_label.item()
+    assert refined.vapour_fraction.item() == out.vapour_fraction.item()
+
+
+def test_single_phase_fields_are_finite_wherever_the_corners_are_single_phase(binary):
+    """Every point whose corners are all single-phase has a finite density and viscosity in the
+    slot of its label and NaN in the other, whatever labels the corners carry."""
+    p, t, r = _random_points(binary, 600, seed=5)
+    out = gridflash.lookup(binary, p, t, r)
+    single = (out.phase_count == 1).values
+    assert single.sum() > 50 and out.label_change.values[single].sum() >= 1
+    vapour = out.phase_label.values == 1
+    for name in ("density", "viscosity", "molar_mass"):
+        v, liq = out[f"vapour_{name}"].values, out[f"liquid_{name}"].values
+        assert np.isfinite(v[single & vapour]).all() and np.isnan(liq[single & vapour]).all()
+        assert np.isfinite(liq[single & ~vapour]).all() and np.isnan(v[single & ~vapour]).all()
+    assert set(out.vapour_fraction.values[single]) <= {0.0, 1.0}

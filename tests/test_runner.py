@@ -15,7 +15,7 @@ import gridflash
 from gridflash import GridflashError, InputError, StoreError
 from gridflash.config._parser import load_config
 from gridflash.runner import Progress, run
-from gridflash.store import read_root_attrs
+from gridflash.store import open_table, read_root_attrs
 
 from ._run_helpers import (
     assert_same_phase_split,
@@ -158,6 +158,28 @@ def test_resume_recomputes_exactly_the_unmarked_blocks(reference, tmp_path):
     again = run(spec, resume=True)
     assert (again.blocks_reused, again.blocks_computed) == (4, 0)
     assert_stores_identical(path, copy)
+
+
+def test_resume_keeps_the_chunks_of_a_store_made_under_other_defaults(tmp_path, monkeypatch):
+    """A store chunked by an earlier default policy (here: everything in one chunk) resumes with
+    its own chunks where the config gives none, instead of being refused as misaligned."""
+    import gridflash.plan._chunks as chunks_module
+
+    spec = load_config(write_config(tmp_path, chunks="", grid={
+        "p_start": 20.0, "p_stop": 270.0, "p_count": 40, "t_count": 8, "c_count": 5}))
+    reference = run(replace(spec, run=replace(spec.run, output=tmp_path / "ref.zarr")))
+    assert reference.blocks_total > 1  # today's defaults cut this 1,600-cell grid
+    with monkeypatch.context() as patch:
+        patch.setattr(chunks_module, "MIN_CHUNK_CELLS", 65_536)  # the old policy: one chunk
+        first = run(spec)
+    assert first.blocks_total == 1
+    group = zarr.open_group(str(first.output), mode="r+")
+    group["block_complete"][0, 0, 0] = 0
+    group.attrs["run_state"] = "running"
+    again = run(spec, resume=True)
+    assert (again.blocks_total, again.blocks_computed) == (1, 1)
+    assert_same_phase_split(open_table(reference.output).load(),
+                            open_table(again.output).load(), tol=1e-8)
 
 
 def test_resume_without_store_is_a_fresh_run(tmp_path):

@@ -19,8 +19,8 @@ import zarr
 from click.testing import CliRunner
 
 import gridflash
-from gridflash.analysis._saturation_lines import saturation_lines_part, write_saturation_lines
 from gridflash.cli import cli
+from gridflash.runner import saturation_lines_part, saturation_step
 from gridflash.thermo import pure_vapour_pressure, saturation_pressure
 
 from ._table_helpers import BINARY_CONFIG, LIST_CONFIG, build_store
@@ -221,7 +221,7 @@ def test_lines_do_not_depend_on_how_the_compositions_are_parted(binary_path, bin
     whole = gridflash.saturation_lines(binary)
     copy = tmp_path / "copy.zarr"
     shutil.copytree(binary_path, copy)
-    rewritten = write_saturation_lines(
+    rewritten = saturation_step(
         copy,
         compute_parts=lambda path, n: [saturation_lines_part(path, k, 3, 1) for k in range(3)],
     )
@@ -248,7 +248,7 @@ def test_lines_on_more_workers_than_compositions(tmp_path_factory, tmp_path):
                       ) as cluster, Client(cluster, set_as_default=False) as client:
         parts = _lines_on_workers(client, str(copy), 3)
         assert len(parts) == 3
-        lines = write_saturation_lines(copy, compute_parts=lambda p, n: parts)
+        lines = saturation_step(copy, compute_parts=lambda p, n: parts)
     for name in whole.data_vars:
         assert np.array_equal(lines[name].values, whole[name].values, equal_nan=True), name
 

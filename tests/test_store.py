@@ -20,6 +20,8 @@ from gridflash.config._parser import load_config
 from gridflash.plan._chunks import (
     DEFAULT_CHUNK_CELLS,
     MAX_SWEEP_DEPTH,
+    MIN_BLOCKS,
+    MIN_CHUNK_CELLS,
     ChunkPlan,
     check_chunks_aligned,
     chunk_plan,
@@ -57,10 +59,26 @@ def test_default_chunks_bounded_and_slab_maximal(shape, sweep):
     if shape[sweep] <= MAX_SWEEP_DEPTH and math.prod(chunks[a] for a in others) > 1:
         assert chunks[sweep] == shape[sweep]
     # ... and the non-sweep axes are only cut when a slab would exceed its share.
+    target = min(DEFAULT_CHUNK_CELLS, max(MIN_CHUNK_CELLS, -(-math.prod(shape) // MIN_BLOCKS)))
+    blocks = math.prod(-(-n // c) for n, c in zip(shape, chunks, strict=True))
+    # A mid-size or larger grid gives every worker work and progress in >= 20 steps.
+    if math.prod(shape) >= MIN_BLOCKS * MIN_CHUNK_CELLS:
+        assert blocks >= 20, (shape, chunks)
     if all(chunks[a] == shape[a] for a in others):
         return
     depth = min(shape[sweep], MAX_SWEEP_DEPTH)
-    assert math.prod(shape[a] for a in others) > DEFAULT_CHUNK_CELLS // depth
+    assert math.prod(shape[a] for a in others) > target // depth
+
+
+@pytest.mark.parametrize(("shape", "blocks"), [
+    ((25, 7, 15), 3),     # 2,625 cells: both workers of a 2-core machine busy
+    ((51, 40, 50), 42),   # 102,000 cells: >= 20 progress steps
+    ((50, 50, 50), 42),   # 125,000 cells (the runner benchmark's grid)
+    ((100, 100, 1000), 156),  # 1e7 cells: chunks of at most DEFAULT_CHUNK_CELLS
+])
+def test_default_chunks_of_the_grids_users_make(shape, blocks):
+    chunks = default_chunks(shape, 0)
+    assert math.prod(-(-n // c) for n, c in zip(shape, chunks, strict=True)) == blocks
 
 
 @settings(max_examples=60, deadline=None)
@@ -314,3 +332,30 @@ def test_open_table_refuses_non_stores(tmp_path):
     zarr.open_group(str(tmp_path / "plain.zarr"), mode="w")
     with pytest.raises(StoreError, match="not a gridflash store"):
         gridflash.open_table(Path(tmp_path / "plain.zarr"))
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    tc=st.floats(0.1, 1e7, allow_nan=False), pc=st.floats(1e3, 2e9),
+    omega=st.floats(-1.5, 3.5), mw=st.floats(1.0, 2000.0),
+    zra=st.none() | st.floats(0.05, 0.6),
+)
+def test_what_a_component_accepts_the_store_rebuilds(tc, pc, omega, mw, zra):
+    """One validation: every component gridflash.Component (and so the config loader) accepts
+    is rebuilt from the store's records (critical volume and Rackett Z as derived), so a run can
+    never finish its chunks and then be refused by its own store reader."""
+    from types import SimpleNamespace
+
+    from gridflash.store._schema import _component_records
+
+    try:
+        heavy = gridflash.Component("HEAVY", tc=tc, pc=pc, omega=omega, mw=mw, zra=zra)
+    except gridflash.InputError as exc:
+        assert len(str(exc).splitlines()) == 1
+        return
+    mixture = gridflash.Mixture(["C1", heavy])
+    spec = SimpleNamespace(fluid=SimpleNamespace(mixture=lambda: mixture))
+    attrs = {"eos": "PR78", "components": json.dumps(_component_records(spec)),
+             "kij": json.dumps(np.zeros((2, 2)).tolist())}
+    rebuilt = gridflash.mixture_from_store(attrs)
+    assert rebuilt.components[1].tc == tc and rebuilt.components[1].pc == pc

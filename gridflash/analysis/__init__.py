@@ -1,3 +1,65 @@
 """Layer 6, use of the results: lookup with interpolation, saturation lines, inspection,
 plots and exports (CSV, Parquet, NetCDF).
 """
+
+from __future__ import annotations
+
+from ._export import (
+    DEFAULT_SPLIT,
+    SPLIT_NAMES,
+    ExportSummary,
+    export_table,
+    parse_split,
+    split_of,
+    split_unit,
+)
+from ._inspect import (
+    AxisReport,
+    StoreReport,
+    UnconvergedCell,
+    config_units,
+    inspect_store,
+)
+from ._lookup import (
+    DEFAULT_LOOKUP_VARIABLES,
+    lookup,
+)
+from ._plot import (
+    PHASE_COLOURS,
+    PLOT_KINDS,
+    parse_at,
+    phase_map,
+    plot_table,
+    property_map,
+)
+from ._saturation_lines import (
+    SATURATION_VARIABLES,
+    add_saturation_lines,
+    saturation_lines,
+)
+
+__all__ = [
+    "AxisReport",
+    "DEFAULT_LOOKUP_VARIABLES",
+    "DEFAULT_SPLIT",
+    "ExportSummary",
+    "PHASE_COLOURS",
+    "PLOT_KINDS",
+    "SATURATION_VARIABLES",
+    "SPLIT_NAMES",
+    "StoreReport",
+    "UnconvergedCell",
+    "add_saturation_lines",
+    "config_units",
+    "export_table",
+    "inspect_store",
+    "lookup",
+    "parse_at",
+    "parse_split",
+    "phase_map",
+    "plot_table",
+    "property_map",
+    "saturation_lines",
+    "split_of",
+    "split_unit",
+]

@@ -1,8 +1,10 @@
 """Export a store as a flat training table: one row per cell, features, labels and a split.
 
 ``gridflash export STORE --out FILE`` (and :func:`export_table`) writes every cell of a grid or
-sample store as one row of a flat table -- Parquet by default, NetCDF on request -- with a
-deterministic train / validation / test split and a description of every column.
+sample store as one row of a flat table -- Parquet, CSV or NetCDF, chosen by FILE's suffix
+(``.parquet``/``.pq``, ``.csv``, ``.nc``) or given explicitly, and never a format that contradicts
+the suffix -- with a deterministic train / validation / test split and a description of every
+column.
 
 Why Parquet by default
 ----------------------
@@ -10,7 +12,11 @@ Training pipelines read Parquet directly (pandas, polars, pyarrow, DuckDB, Spark
 loaders built on them); it is columnar and compressed, keeps each column's own type (int8
 codes, booleans, strings), carries per-column metadata, and is written here row group by row
 group, so exporting a large store needs memory for one group only. NetCDF (through xarray) is
-offered for tools that read CF-style files; it is built in memory before writing.
+offered for tools that read CF-style files; it is built in memory before writing. CSV is for
+spreadsheets and tools without a Parquet reader: a header row of column names, one row per cell,
+floats written with 17 significant digits (they read back to the same binary value), an empty
+field for NaN, ``True``/``False`` for flags; the units are in the sidecar ``FILE.columns.json``
+and in a second file ``FILE.units.csv`` (one row per column: name, units, role, description).
 
 The split
 ---------
@@ -58,7 +64,7 @@ __all__ = [
     "split_unit",
 ]
 
-ExportFormat = Literal["parquet", "netcdf"]
+ExportFormat = Literal["parquet", "csv", "netcdf"]
 
 #: Names of the three parts, in order.
 SPLIT_NAMES: tuple[str, str, str] = ("train", "validation", "test")
@@ -70,9 +76,9 @@ HASH_STEPS = {"pressure": 1e-3, "temperature": 1e-6, "mole_fraction": 1e-9}
 _SPLIT_TOLERANCE = 1e-9
 #: Rows read and written at a time (one Parquet row group).
 ROWS_PER_GROUP = 131_072
-_FORMATS: tuple[str, ...] = ("parquet", "netcdf")
-_SUFFIXES = {".parquet": "parquet", ".pq": "parquet", ".nc": "netcdf", ".netcdf": "netcdf",
-             ".nc4": "netcdf"}
+_FORMATS: tuple[str, ...] = ("parquet", "csv", "netcdf")
+_SUFFIXES = {".parquet": "parquet", ".pq": "parquet", ".csv": "csv", ".nc": "netcdf",
+             ".netcdf": "netcdf", ".nc4": "netcdf"}
 
 
 @dataclass(frozen=True)
@@ -99,7 +105,7 @@ class ExportSummary:
     path, columns_path : Path
         The table and its column description (``FILE.columns.json``).
     format : str
-        ``"parquet"`` or ``"netcdf"``.
+        ``"parquet"``, ``"csv"`` or ``"netcdf"``.
     rows : int
         Rows written.
     cells : int
@@ -374,8 +380,10 @@ def export_table(
         A complete gridflash store (grid or sample).
     out : path-like
         The table file to write; ``out + ".columns.json"`` gets the column description.
-    format : {"parquet", "netcdf"}, optional
-        Default: from the suffix of ``out`` (``.nc`` -> NetCDF), else Parquet.
+    format : {"parquet", "csv", "netcdf"}, optional
+        Default: from the suffix of ``out`` (``.parquet``/``.pq``, ``.csv``, ``.nc``/``.nc4``/
+        ``.netcdf``). Given explicitly, it must agree with a known suffix; a file with another
+        suffix needs it.
     split : sequence of 3 float or str
         Shares of train, validation and test (summing to 1), e.g. ``(0.8, 0.1, 0.1)`` or
         ``"0.8,0.1,0.1"``.
@@ -397,7 +405,8 @@ def export_table(
         The store is missing, not a gridflash store, or unfinished; ``out`` exists and
         ``overwrite`` is False; the file cannot be written.
     InputError
-        A bad ``split``, ``format`` or ``rows_per_group``.
+        A bad ``split``, ``format`` or ``rows_per_group``; a ``format`` that contradicts the
+        suffix of ``out``, or no ``format`` and a suffix that names none.
 
     Notes
     -----
@@ -416,10 +425,11 @@ def export_table(
             or rows_per_group < 1:
         raise InputError(f"rows_per_group={rows_per_group!r} must be a positive integer")
     columns_path = out_path.with_name(out_path.name + ".columns.json")
-    if (out_path.exists() or columns_path.exists()) and not overwrite:
+    sidecars = [columns_path, *([_units_path(out_path)] if fmt == "csv" else [])]
+    if any(p.exists() for p in (out_path, *sidecars)) and not overwrite:
         raise StoreError(
-            f"{str(out_path)!r} (or its .columns.json) already exists; use --overwrite to "
-            "replace it or choose another file"
+            f"{str(out_path)!r} (or its {', '.join(p.name[len(out_path.name):] for p in sidecars)}"
+            ") already exists; use --overwrite to replace it or choose another file"
         )
     ds = open_table(store)
     dims = tuple(ds.phase_count.dims)
@@ -447,8 +457,7 @@ def export_table(
     rows = dropped = 0
     try:
         out_path.parent.mkdir(parents=True, exist_ok=True)
-        writer = _ParquetWriter(tmp, columns, doc) if fmt == "parquet" else _NetcdfWriter(
-            tmp, columns, doc)
+        writer = _WRITERS[fmt](tmp, columns, doc)
         with writer:
             for box in boxes:
                 flat = _box_columns(ds, dims, shape, box, columns, fractions)
@@ -467,6 +476,8 @@ def export_table(
         doc["split"]["counts"] = counts
         os.replace(tmp, out_path)
         columns_path.write_text(json.dumps(doc, indent=1) + "\n")
+        if fmt == "csv":
+            _write_units_csv(_units_path(out_path), typed)
     except OSError as exc:
         raise StoreError(
             f"cannot write {str(out_path)!r}: {exc.strerror or exc}; choose a writable path "
@@ -481,19 +492,78 @@ def export_table(
 
 
 def _format(format: str | None, out: Path) -> str:  # noqa: A002
-    if format is None:
-        format = _SUFFIXES.get(out.suffix.lower(), "parquet")  # noqa: A001
-    if format not in _FORMATS:
+    """The format asked for, checked against the suffix of ``out``."""
+    suffix = out.suffix.lower()
+    by_suffix = _SUFFIXES.get(suffix)
+    if format is not None and format not in _FORMATS:
         raise InputError(f"format={format!r} is not one of {', '.join(_FORMATS)}")
+    if format is None:
+        if by_suffix is None:
+            raise InputError(
+                f"cannot tell the format of {out.name!r} from its suffix {suffix or '(none)'!r}; "
+                "name the file .parquet, .csv or .nc, or give --format parquet|csv|netcdf"
+            )
+        format = by_suffix  # noqa: A001
+    elif by_suffix is not None and by_suffix != format:
+        raise InputError(
+            f"--format {format} does not match {out.name!r}, whose suffix {suffix!r} means "
+            f"{by_suffix}; drop --format or name the file to match"
+        )
     if format == "parquet":
         try:
             import pyarrow.parquet  # noqa: F401
         except ImportError:
             raise InputError(
                 "Parquet export needs pyarrow: pip install 'gridflash[export]', or export "
-                "NetCDF with --format netcdf"
+                "CSV (.csv) or NetCDF (.nc)"
             ) from None
     return format
+
+
+def _units_path(out: Path) -> Path:
+    return out.with_name(out.name + ".units.csv")
+
+
+def _write_units_csv(path: Path, columns: Sequence[Column]) -> None:
+    """One row per column of a CSV export: name, units, role, dtype, description."""
+    import csv
+
+    with path.open("w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["name", "units", "role", "dtype", "description"])
+        for c in columns:
+            writer.writerow([c.name, c.units, c.role, c.dtype, c.description])
+
+
+class _CsvWriter:
+    """Rows appended group by group (memory for one group only), header row first."""
+
+    def __init__(self, path: Path, columns: list[tuple[Column, str, str | None]],
+                 doc: dict[str, Any]) -> None:
+        self.path = path
+        self.columns = [c for c, _, _ in columns]
+        self.dtypes: dict[str, str] = {}
+        self.handle = None
+
+    def __enter__(self) -> _CsvWriter:
+        self.handle = self.path.open("w", newline="")
+        return self
+
+    def write(self, flat: dict[str, np.ndarray]) -> None:
+        import pandas as pd
+
+        frame = pd.DataFrame({c.name: flat[c.name] for c in self.columns})
+        if not self.dtypes:
+            self.dtypes = {c.name: "string" if c.name == "split" else str(frame[c.name].dtype)
+                           for c in self.columns}
+        frame.to_csv(self.handle, header=self.handle.tell() == 0, index=False,
+                     float_format="%.17g", lineterminator="\n")
+
+    def __exit__(self, exc_type: object, *exc: object) -> None:
+        if self.handle is not None:
+            self.handle.close()
+        if exc_type is None and not self.dtypes:
+            raise StoreError("the store has no cells to export")
 
 
 class _ParquetWriter:
@@ -576,6 +646,9 @@ class _NetcdfWriter:
         attrs = {k: (json.dumps(v) if isinstance(v, (dict, list, bool)) or v is None else v)
                  for k, v in self.doc.items()}
         xr.Dataset(data, attrs=attrs).to_netcdf(self.path, format=_netcdf_format())
+
+
+_WRITERS = {"parquet": _ParquetWriter, "csv": _CsvWriter, "netcdf": _NetcdfWriter}
 
 
 def _netcdf_format() -> str:

@@ -13,8 +13,8 @@ from typing import Any
 
 import numpy as np
 
-from .._errors import StoreError
-from ..plan._chunks import ChunkPlan
+from .._errors import GridflashError, StoreError
+from ..plan import ChunkPlan
 from ..store import (
     BLOCK_COMPLETE,
     BlockStats,
@@ -24,7 +24,7 @@ from ..store import (
 )
 from ..thermo import FlashStatus, PhaseLabel
 
-__all__ = ["AxisReport", "StoreReport", "UnconvergedCell", "inspect_store"]
+__all__ = ["AxisReport", "StoreReport", "UnconvergedCell", "config_units", "inspect_store"]
 
 
 @dataclass(frozen=True)
@@ -166,6 +166,28 @@ def inspect_store(path: str | os.PathLike[str], *, max_listed: int = 20) -> Stor
         unconverged=tuple(listed),
         status_counts={_status_name(k): v for k, v in sorted(status_counts.items())},
     )
+
+
+def config_units(attrs: dict[str, Any]) -> tuple[str, str]:
+    """The pressure and temperature units the store's config was written in (``Pa``/``K``
+    where the stored config text does not say, e.g. a store made through the Python API)."""
+    import tomllib
+
+    from ..config import pressure_unit, temperature_unit
+
+    try:
+        doc = tomllib.loads(str(attrs.get("config_text", "")))
+    except tomllib.TOMLDecodeError:
+        doc = {}
+    units = []
+    for table, check, default in (("pressure", pressure_unit, "Pa"),
+                                  ("temperature", temperature_unit, "K")):
+        section = doc.get(table)
+        try:
+            units.append(check(section.get("unit")) if isinstance(section, dict) else default)
+        except GridflashError:
+            units.append(default)
+    return units[0], units[1]
 
 
 def _status_name(code: int) -> str:

@@ -6,9 +6,19 @@ viscosities...) is interpolated multilinearly from the ``2**d`` surrounding node
 right where those nodes agree on the phase state: across a bubble or dew line the vapour
 fraction has a kink, a phase appears or vanishes and its properties jump from a value to NaN.
 Each point therefore says whether its surrounding nodes disagree on the phase count
-(``boundary``) or, all single-phase, on the vapour-like / liquid-like label (``label_change``,
-across which the single-phase vapour fraction jumps between 1 and 0); with ``refine=True`` such
-points are answered by an exact flash of the table's own fluid instead.
+(``boundary``); with ``refine=True`` such points are answered by an exact flash of the table's
+own fluid instead.
+
+Single-phase points are interpolated by state, not by label. A single phase's properties are
+continuous wherever no phase boundary lies between the nodes, but the table files them under
+``liquid_*`` or ``vapour_*`` by the node's vapour-like / liquid-like label, a convention that can
+flip between two single-phase nodes (above the cricondentherm, in the dense supercritical
+region). Where the surrounding nodes are all single-phase and their labels differ
+(``label_change``), each node's single-phase value is taken from whichever slot its label puts it
+in, those values are interpolated, and the result is filed under the label the table's own flash
+gives at the point (its labelling rule applied there; vapour fraction 1 or 0 to match), so the
+point gets the phase's density, viscosity, molar mass and composition instead of a vapour
+fraction of 0.5 and NaN densities.
 """
 
 from __future__ import annotations
@@ -24,7 +34,7 @@ import xarray as xr
 from numpy.typing import ArrayLike, NDArray
 
 from .._errors import ConfigError, InputError, StoreError
-from ..config._units import pressure_to_pa, temperature_to_kelvin
+from ..config import pressure_to_pa, temperature_from_kelvin, temperature_to_kelvin
 from ..store import VARIABLES, mixture_from_store
 
 __all__ = ["DEFAULT_LOOKUP_VARIABLES", "lookup"]
@@ -44,6 +54,7 @@ DEFAULT_LOOKUP_VARIABLES: tuple[str, ...] = (
 _AXIS_RTOL = 1e-9
 
 _VARIABLE_BY_NAME = {v.name: v for v in VARIABLES}
+_VAPOUR_LIKE = 1  # PhaseLabel.VAPOUR_LIKE, the flag value the store documents
 
 
 @dataclass(frozen=True)
@@ -96,7 +107,7 @@ def lookup(
         or give NaN fields (``inside`` False, ``phase_count`` 0).
     refine : bool
         Replace the interpolated answer at every ``boundary`` or ``label_change`` point by an
-        exact flash of the table's stored fluid (:func:`~gridflash.store._writer.mixture_from_store`)
+        exact flash of the table's stored fluid (:func:`~gridflash.store.mixture_from_store`)
         at the point's pressure, temperature and feed, warm-started from the K-values of the
         surrounding two-phase node with the largest interpolation weight. The warm start only
         saves iterations: a warm start is kept only when it converges to a two-phase split,
@@ -114,8 +125,8 @@ def lookup(
         - ``feed_composition`` (point, component): the feed at the point;
         - ``phase_count`` (int8): the count the surrounding nodes agree on, the flash's count
           where refined, 0 where they disagree and the point was not refined, or outside;
-        - ``phase_label`` (int8): likewise for two-phase / vapour-like / liquid-like (-1 when
-          unknown);
+        - ``phase_label`` (int8): likewise for two-phase / vapour-like / liquid-like; at a
+          ``label_change`` point the label the table's flash gives there; -1 where unknown;
         - ``boundary`` (bool): the surrounding nodes disagree on the phase count, so the
           interpolated phase split is not to be trusted;
         - ``label_change`` (bool): the surrounding nodes are all single-phase but labelled both
@@ -216,7 +227,9 @@ def lookup(
         corner_flat[:, k] = np.ravel_multi_index(idx, shape)
     corner_w[~inside] = 0.0
 
-    wanted = [*names, "phase_count", "phase_label", "converged", *(["k_value"] if refine else [])]
+    partners = [_partner(n) for n in names if _partner(n) in ds.data_vars]
+    wanted = [*names, *partners, "phase_count", "phase_label", "converged",
+              *(["k_value"] if refine else [])]
     gathered = _gather(ds, dims, wanted, corner_flat, shape)
     count, label = gathered["phase_count"], gathered["phase_label"]
     count_lo, count_hi = count.min(axis=1), count.max(axis=1)
@@ -225,17 +238,23 @@ def lookup(
     label_change = inside & ~boundary & (label_lo != label_hi)
     agreed = inside & ~boundary
     out_count = np.where(agreed, count_lo, 0).astype(np.int8)
-    out_label = np.where(agreed & ~label_change, label_lo, -1).astype(np.int8)
+    out_label = np.where(agreed, label_lo, -1).astype(np.int8)
     converged = inside & gathered["converged"].all(axis=1)
 
     fields: dict[str, NDArray[np.float64]] = {}
     for name in names:
-        values = np.asarray(gathered[name], dtype=float)
-        spec = "nk,nk->n" if values.ndim == 2 else "nk,nkc->nc"
-        fields[name] = np.einsum(spec, corner_w, values)
+        fields[name] = _interpolate(corner_w, gathered[name])
         fields[name][~inside] = np.nan
-
+    single = agreed & (out_count == 1)
+    if "vapour_fraction" in fields:  # exactly 1 or 0, not a weighted sum of ones rounded
+        fields["vapour_fraction"][single] = (out_label[single] == _VAPOUR_LIKE).astype(float)
     feed = _feeds(ds, comp_dim, axes[2], c_query, inside)
+    if label_change.any():
+        out_label[label_change] = _by_state(
+            names, gathered, corner_w, label_change, fields,
+            _point_labels(ds, p_query[label_change], t_query[label_change], feed[label_change],
+                          gathered["phase_label"][label_change], corner_w[label_change]))
+
     refined = np.zeros(p_query.size, dtype=bool)
     if refine:
         todo = np.flatnonzero(boundary | label_change)
@@ -365,6 +384,10 @@ def _span(values: NDArray[np.float64], scale: float = 1.0, offset: float = 0.0,
     return f"{text} {unit}".rstrip()
 
 
+def _kelvin_text(kelvin: float, unit: str) -> str:
+    return f"{temperature_from_kelvin(kelvin, unit):g} {unit}"
+
+
 def _outside_message(ds, dims, axes, queries, pressure_unit, temperature_unit) -> str:
     scale_p = float(pressure_to_pa(1.0, pressure_unit))
     for dim, axis, query in zip(dims, axes, queries, strict=True):
@@ -376,8 +399,8 @@ def _outside_message(ds, dims, axes, queries, pressure_unit, temperature_unit) -
             shown = f"{query[i] / scale_p:g} {pressure_unit}"
             span = _span(nodes, scale_p, unit=pressure_unit)
         elif dim == "temperature":
-            shown = _from_kelvin_text(query[i], temperature_unit)
-            span = " .. ".join(_from_kelvin_text(v, temperature_unit)
+            shown = _kelvin_text(query[i], temperature_unit)
+            span = " .. ".join(_kelvin_text(v, temperature_unit)
                                for v in (nodes[0], nodes[-1]))
         else:
             shown = f"{query[i]:g}"
@@ -385,13 +408,6 @@ def _outside_message(ds, dims, axes, queries, pressure_unit, temperature_unit) -
         return (f"{dim}[{i}] = {shown} is outside the table ({dim} {span}); look up points "
                 "inside it, or pass outside='nan' to get NaN there")
     return "a point is outside the table"  # pragma: no cover - some axis is always outside
-
-
-def _from_kelvin_text(kelvin: float, unit: str) -> str:
-    low = float(temperature_to_kelvin(1000.0, unit))  # two temperatures valid in every unit
-    scale = (float(temperature_to_kelvin(2000.0, unit)) - low) / 1000.0
-    offset = low - 1000.0 * scale
-    return f"{(kelvin - offset) / scale:g} {unit}"
 
 
 # --------------------------------------------------------------------------------------------
@@ -442,6 +458,66 @@ def _feeds(ds: xr.Dataset, comp_dim: str, axis: _Axis, query: NDArray[np.float64
         out = (1.0 - w) * feeds[axis.lower] + w * feeds[upper]
     out[~inside] = np.nan
     return out
+
+
+def _interpolate(weights: NDArray[np.float64], values: np.ndarray) -> NDArray[np.float64]:
+    """Weighted sum over the corners: (n, 8) weights with (n, 8) or (n, 8, nc) values."""
+    values = np.asarray(values, dtype=float)
+    return np.einsum("nk,nk->n" if values.ndim == 2 else "nk,nkc->nc", weights, values)
+
+
+_PHASES = ("liquid", "vapour")
+
+
+def _partner(name: str) -> str:
+    """``liquid_density`` <-> ``vapour_density`` (and the compositions); '' for other fields."""
+    phase, sep, prop = name.partition("_")
+    if not sep or phase not in _PHASES:
+        return ""
+    return f"{_PHASES[1 - _PHASES.index(phase)]}_{prop}"
+
+
+def _point_labels(ds, pressure, temperature, feed, corner_labels, weights) -> np.ndarray:
+    """The single-phase label the table's flash gives at each point (its labelling rule applied
+    at the point); the label of the heavier corners where that flash finds two phases (a sliver
+    the grid does not resolve)."""
+    from ..thermo import PhaseLabel, flash
+
+    result = flash(mixture_from_store(ds), pressure, temperature,
+                   feed / feed.sum(axis=1, keepdims=True))
+    vapour_weight = np.where(corner_labels == PhaseLabel.VAPOUR_LIKE, weights, 0.0).sum(axis=1)
+    heavier = np.where(vapour_weight >= 0.5 * weights.sum(axis=1), PhaseLabel.VAPOUR_LIKE,
+                       PhaseLabel.LIQUID_LIKE)
+    return np.where(result.phase_count == 1, result.phase_label, heavier)
+
+
+def _by_state(names, gathered, weights, rows, fields, labels) -> np.ndarray:
+    """Single-phase fields of the ``rows`` points, interpolated by state across a label change.
+
+    Each corner's single-phase value is read from the slot its label files it under; the
+    interpolated value goes to the slot of the point's label (``labels``), the other slot is NaN
+    and the vapour fraction is 1 or 0. Returns the labels.
+    """
+    from ..thermo import PhaseLabel
+
+    w = weights[rows]
+    vapour_corner = gathered["phase_label"][rows] == PhaseLabel.VAPOUR_LIKE
+    vapour = labels == PhaseLabel.VAPOUR_LIKE
+    for name in names:
+        partner = _partner(name)
+        if name == "vapour_fraction":
+            fields[name][rows] = np.where(vapour, 1.0, 0.0)
+        elif partner and partner in gathered:
+            phase = name.partition("_")[0]
+            mine, theirs = gathered[name][rows], gathered[partner][rows]
+            # the corner's single-phase value: from the vapour slot at vapour-like corners
+            in_vapour = vapour_corner if phase == "vapour" else ~vapour_corner
+            state = np.where(in_vapour.reshape(in_vapour.shape + (1,) * (mine.ndim - 2)),
+                             mine, theirs)
+            value = _interpolate(w, state)
+            value[~(vapour if phase == "vapour" else ~vapour)] = np.nan
+            fields[name][rows] = value
+    return np.asarray(labels, dtype=np.int8)
 
 
 def _refine(ds, pressure, temperature, feed, k_corners, count_corners, weights):

@@ -24,7 +24,7 @@ import numpy as np
 import xarray as xr
 
 from .._errors import ConfigError, GridflashError, InputError, StoreError
-from ..config._units import pressure_to_pa, pressure_unit, temperature_to_kelvin, temperature_unit
+from ..config import pressure_to_pa, pressure_unit, temperature_to_kelvin, temperature_unit
 
 __all__ = [
     "PHASE_COLOURS",

@@ -18,24 +18,22 @@ from __future__ import annotations
 import contextlib
 import os
 import warnings
-from collections.abc import Callable, Iterator
+from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import numpy as np
 import xarray as xr
-import zarr
 from numpy.typing import NDArray
 
 from .._errors import StoreError
-from ..store import mixture_from_store
+from ..store import consolidate, mixture_from_store, open_table, write_line_variables
 from ..thermo import Mixture, flash, saturation_pressure
 
 __all__ = [
     "SATURATION_VARIABLES",
     "add_saturation_lines",
     "saturation_lines",
-    "write_saturation_lines",
 ]
 
 #: Variables this module adds to a store.
@@ -79,7 +77,7 @@ def saturation_lines(
         A grid table (:func:`gridflash.open_table`) with ``phase_count`` over ``pressure`` x
         ``temperature`` x the composition dimension.
     mixture : Mixture, optional
-        The fluid; default the table's own (:func:`gridflash.store._writer.mixture_from_store`).
+        The fluid; default the table's own (:func:`gridflash.store.mixture_from_store`).
     threads : int, optional
         Threads to solve the lines in (default: one per core). The answers do not depend on it.
 
@@ -220,68 +218,6 @@ def saturation_lines(
     return out
 
 
-def write_saturation_lines(
-    path: str | os.PathLike[str],
-    *,
-    compute_parts: Callable[[str, int], list[xr.Dataset]] | None = None,
-    threads: int | None = None,
-) -> xr.Dataset | None:
-    """Compute a store's saturation lines and write them into it (metadata not consolidated).
-
-    By default the lines are computed here, in ``threads`` threads (default one per core). The
-    runner passes ``compute_parts(path, n_compositions)``, which computes them on its workers:
-    part ``k`` of ``n`` (:func:`saturation_lines_part`, ``n`` at most ``n_compositions``) on
-    each of ``n`` worker processes, in that worker's threads. Every line and composition is
-    computed independently of the others, so the answer does not depend on the parts or
-    threads. A store without a pressure x temperature grid (a sampled table) is left as it is
-    (returns None).
-    """
-    store = Path(path)
-    with _quiet():
-        ds = xr.open_zarr(store, consolidated=False)
-    try:
-        if tuple(ds.phase_count.dims[:2]) != ("pressure", "temperature"):
-            return None
-        comp_dim = _grid_dims(ds)[2]
-        n_comp = ds.sizes[comp_dim]
-    finally:
-        ds.close()
-    if compute_parts is None:
-        parts = [saturation_lines_part(str(store), 0, 1, threads)]
-    else:
-        parts = compute_parts(str(store), n_comp)
-    n_parts = len(parts)
-    lines = xr.concat(parts, dim=comp_dim) if n_parts > 1 else parts[0]
-    order = np.concatenate([np.arange(k, n_comp, n_parts) for k in range(n_parts)])
-    lines = lines.isel({comp_dim: np.argsort(order)})
-    # Written with zarr itself: an xarray append would replace the root attributes.
-    group = zarr.open_group(str(store), mode="r+", use_consolidated=False)
-    for name, var in lines.data_vars.items():
-        values = np.asarray(var.values)
-        array = group.create_array(
-            name, shape=values.shape, dtype=values.dtype, chunks=values.shape or None,
-            fill_value=np.nan if values.dtype.kind == "f" else -1,
-            dimension_names=list(var.dims), attributes=dict(var.attrs), overwrite=True)
-        array[...] = values
-    return lines
-
-
-def saturation_lines_part(
-    path: str, part: int, n_parts: int, threads: int | None = None
-) -> xr.Dataset:
-    """:func:`saturation_lines` of part ``part`` of ``n_parts`` of a store's compositions: every
-    ``n_parts``-th composition from ``part`` on (neighbouring compositions cost about the same,
-    so interleaved parts cost alike), in ``threads`` threads (default one per core)."""
-    with _quiet():
-        ds = xr.open_zarr(path, consolidated=False)
-    try:
-        comp_dim = _grid_dims(ds)[2]
-        table = ds.isel({comp_dim: slice(part, None, n_parts)})
-        return saturation_lines(table, threads=threads).load()
-    finally:
-        ds.close()
-
-
 def add_saturation_lines(path: str | os.PathLike[str]) -> xr.Dataset:
     """Compute the saturation lines of an existing store and store them in it.
 
@@ -303,18 +239,19 @@ def add_saturation_lines(path: str | os.PathLike[str]) -> xr.Dataset:
     StoreError
         Not a gridflash store, an unfinished run, or a table without a grid.
     """
-    from ..store import open_table
-
     store = Path(path).expanduser()
-    open_table(store).close()  # the same refusals as open_table (missing, foreign, unfinished)
-    lines = write_saturation_lines(store)
-    if lines is None:
-        raise StoreError(
-            f"{str(store)!r} has no pressure x temperature grid (a sampled table); saturation "
-            "lines need a grid"
-        )
-    with _quiet():
-        zarr.consolidate_metadata(str(store))
+    table = open_table(store)  # the same refusals as open_table (missing, foreign, unfinished)
+    try:
+        if tuple(table.phase_count.dims[:2]) != ("pressure", "temperature"):
+            raise StoreError(
+                f"{str(store)!r} has no pressure x temperature grid (a sampled table); "
+                "saturation lines need a grid"
+            )
+        lines = saturation_lines(table.load())
+    finally:
+        table.close()
+    write_line_variables(store, lines)
+    consolidate(store)
     return lines
 
 

@@ -11,7 +11,7 @@ then the next eighth, the next quarter and the last half. Because any stretch of
 Sobol' or Halton sequence is itself spread evenly over the whole range, the first wave already
 covers the range coarsely and each later wave fills the gaps between the samples already
 computed. Each sample of a later wave is offered the K-values of its nearest computed sample
-(Euclidean distance in :attr:`~gridflash.plan._sampling.SampleInputs.position`: pressure, temperature
+(Euclidean distance in :attr:`~gridflash.plan.SampleInputs.position`: pressure, temperature
 and mixing ratio as shares of their ranges, or the stream fractions) when that sample converged
 to two phases, and is started cold otherwise. As on a grid, :func:`gridflash.flash` keeps a
 warm start only where it converges to a two-phase answer and solves every other cell exactly as
@@ -27,8 +27,8 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy.spatial import cKDTree
 
-from ..config._spec import RunSpec
-from ..plan._sampling import sample_inputs
+from ..config import RunSpec
+from ..plan import sample_inputs
 from ..thermo import Mixture, flash
 from ._sweep import BlockResult, _scatter
 

@@ -622,20 +622,26 @@ class _Parser:
             pseudo = slice(self.heavy.n_light, self.heavy.n_light + len(self.heavy.shares))
             if np.any(z[pseudo] > 0.0):
                 bad(key, value, "gives both heavy-end entries and pseudo-component fractions; "
-                     "give one or the other")
+                    "give one or the other")
             z[pseudo] = heavy_total * self.heavy.shares
-        total = float(z.sum())
+        fractions = {name: float(v) for name, v in zip(self.names, z, strict=True)}
         if normalise:
-            if total <= 0.0:
+            if not np.any(z > 0.0):
                 bad(key, value, "has no positive fraction; at least one component must be > 0")
-        elif abs(total - 1.0) > SUM_TOLERANCE:
+            # Relative amounts of any size: scaled by the largest first, so that a sum beyond
+            # the float range (e.g. 1.7e308 + 1.7e308) cannot overflow to inf.
+            if not np.all(np.isfinite(z)):
+                bad(key, value, "adds up to more than the largest float; give relative amounts "
+                    "below 1e300")
+            z = z / z.max()
+        total = float(z.sum())
+        if not normalise and abs(total - 1.0) > SUM_TOLERANCE:
             bad(
                 key,
                 value,
                 f"sums to {total:.10g}, not 1 within {SUM_TOLERANCE:g}; correct the fractions or "
                 f"set {normalise_key} = true to rescale them",
             )
-        fractions = {name: float(v) for name, v in zip(self.names, z, strict=True)}
         return z / total, fractions
 
     @staticmethod

@@ -1,6 +1,6 @@
 """The validated, immutable description of a run, in SI units.
 
-``gridflash.config._parser.load_config`` builds a :class:`RunSpec` from a TOML file; everything
+``gridflash.load_config`` builds a :class:`RunSpec` from a TOML file; everything
 downstream (grid, runner, store) sees only these frozen records, never a unit string from a config.
 """
 
@@ -101,7 +101,7 @@ class SampleDesign:
     """Sampling mode: ``points`` cells drawn by a scrambled low-discrepancy sequence.
 
     Built from the config's ``[sampling]`` table and the ranges of ``[pressure]``,
-    ``[temperature]`` and ``[composition]``; ``gridflash.plan._sampling.sample_inputs`` turns a
+    ``[temperature]`` and ``[composition]``; ``gridflash.plan.sample_inputs`` turns a
     range of sample indices into cell inputs (the mapping is documented there).
     """
 

@@ -30,8 +30,10 @@ __all__ = [
     "TEMPERATURE_UNITS",
     "molar_volume_unit",
     "molar_volume_to_si",
+    "pressure_from_pa",
     "pressure_to_pa",
     "pressure_unit",
+    "temperature_from_kelvin",
     "temperature_to_kelvin",
     "temperature_unit",
 ]
@@ -250,6 +252,47 @@ def temperature_to_kelvin(
             "temperatures must be above 0 K"
         )
     return float(kelvin[0]) if scalar else kelvin
+
+
+def pressure_from_pa(values: float | np.ndarray, unit: str) -> float | np.ndarray:
+    """Pressures in Pa expressed in ``unit`` (the inverse of :func:`pressure_to_pa`).
+
+    Raises
+    ------
+    ConfigError
+        If the unit is unknown.
+
+    Examples
+    --------
+    >>> pressure_from_pa(101325.0, "atm")
+    1.0
+    """
+    factor = _PRESSURE_FACTORS[pressure_unit(unit, key="pressure unit")]
+    return values / factor if np.ndim(values) else float(values) / factor
+
+
+def temperature_from_kelvin(values: float | np.ndarray, unit: str) -> float | np.ndarray:
+    """Temperatures in K expressed in ``unit`` (the inverse of :func:`temperature_to_kelvin`).
+
+    Raises
+    ------
+    ConfigError
+        If the unit is unknown.
+
+    Examples
+    --------
+    >>> temperature_from_kelvin(273.15, "degF")
+    32.0
+    """
+    canonical = temperature_unit(unit, key="temperature unit")
+    kelvin = np.asarray(values, dtype=float)
+    if canonical == "K":
+        out = kelvin
+    elif canonical == "degC":
+        out = kelvin - 273.15
+    else:
+        out = (kelvin - 273.15) * 9.0 / 5.0 + 32.0
+    return out if np.ndim(values) else float(out)
 
 
 def molar_volume_to_si(value: float, unit: str, *, key: str = "vc") -> float:

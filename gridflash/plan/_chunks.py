@@ -15,10 +15,12 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 from .._errors import ConfigError, StoreError
-from ..config._spec import RunSpec
+from ..config import RunSpec
 
 __all__ = [
     "DEFAULT_CHUNK_CELLS",
+    "MIN_BLOCKS",
+    "MIN_CHUNK_CELLS",
     "DEFAULT_SAMPLE_CHUNK",
     "MAX_SWEEP_DEPTH",
     "BlockId",
@@ -30,6 +32,15 @@ __all__ = [
 
 #: Default chunks hold at most this many cells (about 0.4 MB per float variable).
 DEFAULT_CHUNK_CELLS = 65_536
+#: Default chunks cut a grid into at least about this many blocks (where chunks of
+#: ``MIN_CHUNK_CELLS`` allow it), so that every worker of a machine or a small cluster gets work
+#: on a mid-size grid, the load balances at the end of a run, and progress moves in at least
+#: 20 steps.
+MIN_BLOCKS = 32
+#: Default chunks are not cut below this many cells: a task's fixed cost -- scheduling, opening
+#: the store, writing about twenty arrays, about 40 ms on a loaded 2-core machine -- would
+#: outweigh its flashes (about 50,000 cells/s per thread).
+MIN_CHUNK_CELLS = 1024
 #: Default chunks keep the sweep dimension whole up to this many slabs, so that every slab of a
 #: chunk but the first is warm-started.
 MAX_SWEEP_DEPTH = 1024
@@ -138,7 +149,7 @@ class ChunkPlan:
 
 
 def default_chunks(shape: Sequence[int], sweep_axis: int) -> tuple[int, int, int]:
-    """Default chunk lengths: the whole sweep axis, at most ``DEFAULT_CHUNK_CELLS`` cells.
+    """Default chunk lengths: the whole sweep axis, enough blocks for every worker.
 
     Parameters
     ----------
@@ -153,23 +164,29 @@ def default_chunks(shape: Sequence[int], sweep_axis: int) -> tuple[int, int, int
 
     Notes
     -----
-    Warm starts pay from the second slab of a chunk on, and the compiled flash costs the same per
-    cell on small and large slabs, so the sweep dimension is kept whole (up to
-    ``MAX_SWEEP_DEPTH`` slabs) and the other dimensions are cut (the longest first, into
-    near-equal parts) until a slab holds at most ``DEFAULT_CHUNK_CELLS / depth`` cells; only a
-    sweep axis longer than ``MAX_SWEEP_DEPTH`` or a grid whose slabs cannot be cut further has its
-    sweep dimension cut too.
+    A chunk holds at most ``target = min(DEFAULT_CHUNK_CELLS, max(MIN_CHUNK_CELLS,
+    ceil(cells / MIN_BLOCKS)))`` cells: a large grid gets chunks of ``DEFAULT_CHUNK_CELLS``, a
+    mid-size grid about ``MIN_BLOCKS`` blocks, a small one chunks of ``MIN_CHUNK_CELLS``. Warm
+    starts pay from the second slab of a chunk on, and the compiled flash costs the same per cell
+    on small and large slabs, so the sweep dimension is kept whole (up to ``MAX_SWEEP_DEPTH``
+    slabs) and the other dimensions are cut (the longest first, into near-equal parts) until a
+    slab holds at most ``target / depth`` cells; only a sweep axis longer than
+    ``MAX_SWEEP_DEPTH``, or one that alone holds more than ``target`` cells, is cut too.
 
     Examples
     --------
     >>> default_chunks((100, 100, 100), sweep_axis=0)
-    (100, 25, 25)
+    (100, 17, 17)
+    >>> default_chunks((25, 7, 15), sweep_axis=0)
+    (25, 7, 5)
     >>> default_chunks((5, 3, 6), sweep_axis=0)
     (5, 3, 6)
     """
     shape = [int(n) for n in shape]
+    cells = math.prod(shape)
+    target = min(DEFAULT_CHUNK_CELLS, max(MIN_CHUNK_CELLS, -(-cells // MIN_BLOCKS)))
     depth = min(shape[sweep_axis], MAX_SWEEP_DEPTH)
-    slab_cap = max(1, DEFAULT_CHUNK_CELLS // depth)
+    slab_cap = max(1, target // depth)
     sizes = list(shape)
     parts = [1, 1, 1]
     others = [a for a in range(3) if a != sweep_axis]
@@ -181,7 +198,7 @@ def default_chunks(shape: Sequence[int], sweep_axis: int) -> tuple[int, int, int
         sizes[a] = -(-shape[a] // parts[a])
     slab = math.prod(sizes[a] for a in others)
     s = sweep_axis
-    while sizes[s] > 1 and sizes[s] * slab > DEFAULT_CHUNK_CELLS:
+    while sizes[s] > 1 and sizes[s] * slab > max(target, min(depth, shape[s])):
         parts[s] += 1
         sizes[s] = -(-shape[s] // parts[s])
     return tuple(sizes)  # type: ignore[return-value]

@@ -11,7 +11,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._errors import InputError
-from ..config._spec import RunSpec
+from ..config import RunSpec
 
 __all__ = ["block_inputs"]
 

@@ -2,7 +2,7 @@
 
 Pure numpy/scipy; no dask, no files. The config's ``[sampling]`` table (``points``,
 ``sequence``, ``seed``) and the ranges of ``[pressure]``, ``[temperature]`` and
-``[composition]`` become a :class:`~gridflash.config._spec.SampleDesign`; this module turns any
+``[composition]`` become a :class:`~gridflash.config.SampleDesign`; this module turns any
 contiguous run of sample indices into the cells' inputs.
 
 The design
@@ -39,11 +39,10 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._errors import InputError
-from ..config._spec import SEQUENCES, SampleDesign
+from ..config import SEQUENCES, SampleDesign
 
 __all__ = [
     "SAMPLE_DIM",
-    "SEQUENCES",
     "SampleInputs",
     "sample_inputs",
     "simplex_from_cube",

@@ -15,7 +15,7 @@ import xarray as xr
 import zarr
 
 from .._errors import StoreError
-from ..plan._chunks import ChunkPlan
+from ..plan import ChunkPlan
 from ._schema import BLOCK_COMPLETE, STORE_FORMAT, VARIABLES
 
 __all__ = [
@@ -24,6 +24,7 @@ __all__ = [
     "mixture_from_store",
     "open_group",
     "open_table",
+    "open_unconsolidated",
     "read_root_attrs",
     "stored_chunks",
 ]
@@ -208,3 +209,10 @@ def mixture_from_store(source: xr.Dataset | Mapping[str, Any] | str | os.PathLik
                       for i, c in enumerate(components)]
         mixture = Mixture(components, eos=eos, kij=kij)  # type: ignore[arg-type]
     return mixture
+
+
+def open_unconsolidated(path: str | os.PathLike[str]) -> xr.Dataset:
+    """The store as a lazy Dataset while a run is writing it (metadata not yet consolidated)."""
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message=".*[Cc]onsolidated metadata.*")
+        return xr.open_zarr(str(path), consolidated=False)

@@ -16,9 +16,8 @@ from typing import Any
 
 import numpy as np
 
-from ..config._spec import RunSpec
-from ..plan._chunks import ChunkPlan
-from ..plan._sampling import SAMPLE_DIM, sample_inputs
+from ..config import RunSpec
+from ..plan import SAMPLE_DIM, ChunkPlan, sample_inputs
 
 __all__ = ["SAMPLE_MAPPING", "sample_coordinates"]
 

@@ -27,7 +27,7 @@ from zarr.codecs import BloscCodec
 
 from .._version import __version__
 from ..config import RunSpec
-from ..plan._chunks import ChunkPlan
+from ..plan import ChunkPlan
 from ..thermo import FlashStatus, PhaseLabel
 
 __all__ = [
@@ -63,7 +63,7 @@ class Variable:
     name : str
         Variable name in the store.
     source : str
-        Key in :class:`gridflash.compute._sweep.BlockResult` it is copied from.
+        Key in :class:`gridflash.compute.BlockResult` it is copied from.
     dtype : str
     fill_value : object
         Zarr fill value (what an unwritten cell reads as).
@@ -246,12 +246,12 @@ def _with_cell_variables(
     """The template: given coordinates and inputs plus the lazy per-cell variables and marks."""
     dims = plan.dims
     nc = len(spec.fluid.components)
-    grid_chunks = plan.dask_chunks()
+    # One dask chunk per lazy variable: only the metadata is written (compute=False), and a
+    # graph with a task per zarr chunk would grow with the grid (gigabytes for 1e9 cells).
     for var in VARIABLES:
         var_dims = dims + (("component",) if var.per_component else ())
         shape = plan.shape + ((nc,) if var.per_component else ())
-        chunks = grid_chunks + (((nc,),) if var.per_component else ())
-        data[var.name] = (var_dims, da.empty(shape, chunks=chunks, dtype=var.dtype),
+        data[var.name] = (var_dims, da.empty(shape, chunks=shape, dtype=var.dtype),
                           dict(var.attrs))
         encoding[var.name] = {
             "chunks": plan.chunks + ((nc,) if var.per_component else ()),
@@ -259,7 +259,8 @@ def _with_cell_variables(
             "compressors": COMPRESSORS,
         }
     block_dims = tuple(f"{d}_block" for d in dims)
-    data[BLOCK_COMPLETE] = (block_dims, da.zeros(plan.blocks_shape, chunks=1, dtype="int8"), {
+    data[BLOCK_COMPLETE] = (block_dims, da.zeros(plan.blocks_shape, chunks=plan.blocks_shape,
+                                                     dtype="int8"), {
         "units": "1", "long_name": "1 once the block's data are completely written",
         "flag_values": [0, 1], "flag_meanings": "incomplete complete",
         "comment": f"one element per block of {list(plan.chunks)} grid points along "

@@ -30,19 +30,21 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import xarray as xr
 import zarr
 from zarr.api import asynchronous as zarr_async
 
 from .._errors import StoreError
-from ..compute._sweep import BlockResult
-from ..config._spec import RunSpec
-from ..plan._chunks import BlockId, ChunkPlan
+from ..compute import BlockResult
+from ..config import RunSpec
+from ..plan import BlockId, ChunkPlan
 from ._reader import is_gridflash_store, open_group
 from ._schema import BLOCK_COMPLETE, VARIABLES, now_utc, template
 
 __all__ = [
     "BlockStats",
     "block_stats",
+    "consolidate",
     "create_store",
     "finish_store",
     "mark_block_complete",
@@ -50,6 +52,7 @@ __all__ = [
     "set_run_state",
     "stored_block_stats",
     "write_block",
+    "write_line_variables",
 ]
 
 
@@ -254,10 +257,29 @@ def set_run_state(path: Path, state: str, **attrs: Any) -> None:
     """Update ``run_state`` (and other root attributes) and re-consolidate the metadata."""
     group = open_group(path, "r+")
     group.attrs.update({"run_state": state, **attrs})
-    with _quiet_zarr():
-        zarr.consolidate_metadata(str(path))
+    consolidate(path)
 
 
 def finish_store(path: Path, stats: BlockStats, **attrs: Any) -> None:
     """Record the run's statistics, mark it complete and consolidate the metadata."""
     set_run_state(path, "complete", finished=now_utc(), **stats.as_attrs(), **attrs)
+
+
+def write_line_variables(path: str | os.PathLike[str], variables: xr.Dataset) -> None:
+    """Write (or replace) variables that are not per cell -- saturation lines, cricondenbars --
+    into a store, one chunk each, keeping the root attributes (an xarray append would replace
+    them). Metadata is not consolidated here (:func:`consolidate`)."""
+    group = zarr.open_group(str(path), mode="r+", use_consolidated=False)
+    for name, var in variables.data_vars.items():
+        values = np.asarray(var.values)
+        array = group.create_array(
+            name, shape=values.shape, dtype=values.dtype, chunks=values.shape or None,
+            fill_value=np.nan if values.dtype.kind == "f" else -1,
+            dimension_names=list(var.dims), attributes=dict(var.attrs), overwrite=True)
+        array[...] = values
+
+
+def consolidate(path: str | os.PathLike[str]) -> None:
+    """Consolidate a store's metadata (once at creation and once at the end of a change)."""
+    with _quiet_zarr():
+        zarr.consolidate_metadata(str(path))

@@ -4,7 +4,7 @@
 single carbon-number fractions, and a plus-fraction with molar mass and specific gravity) and
 
 1. splits the plus-fraction into SCN fractions with Whitson's gamma distribution and gives each a
-   specific gravity from one Watson factor (``_characterisation_split.py``);
+   specific gravity from one Watson factor (``_plus_fraction.py``);
 2. estimates boiling point, critical constants, acentric factor and critical volume of every
    fraction from the named correlations (``_correlations.py``);
 3. lumps the fractions into a few pseudo-components of about equal mass, with mass- or
@@ -27,11 +27,6 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .._errors import InputError
-from ._characterisation_split import (
-    MAX_CARBON_LIMIT,
-    constant_watson_sg,
-    gamma_split,
-)
 from ._components import Component, builtin_component
 from ._correlations import (
     ACENTRIC_METHODS,
@@ -49,6 +44,11 @@ from ._correlations import (
     soreide_boiling_point,
 )
 from ._mixture import Mixture
+from ._plus_fraction import (
+    MAX_CARBON_LIMIT,
+    constant_watson_sg,
+    gamma_fractions,
+)
 
 __all__ = [
     "CharacterisedFluid",
@@ -424,7 +424,7 @@ def characterise(
     -----
     Mole fractions are first divided by their total (unless it is within 1e-12 of 1). The
     plus-fraction is split by
-    :func:`~gridflash.thermo._characterisation_split.gamma_split` (its moles and mass are
+    :func:`~gridflash.thermo._plus_fraction.gamma_fractions` (its moles and mass are
     reproduced to rounding) and its fractions get SGs from one Watson factor matching the
     plus-fraction's SG. Boiling point, Tc, Pc, omega and Vc (Riazi & Daubert 1980) follow for
     every heavy fraction. The fractions are then lumped by :func:`equal_mass_groups`; each
@@ -471,7 +471,7 @@ def characterise(
     if abs(total - 1.0) <= _EXACT_TOTAL:
         total = 1.0
     plus = analysis.plus
-    split = gamma_split(
+    fractions = gamma_fractions(
         plus.carbon_number,
         plus.mole_fraction / total,
         plus.mw,
@@ -479,13 +479,13 @@ def characterise(
         alpha=alpha,
         eta=eta,
     )
-    sg_split, kw = constant_watson_sg(split.mole_fraction, split.mw, plus.sg)
+    sg_split, kw = constant_watson_sg(fractions.mole_fraction, fractions.mw, plus.sg)
 
     measured = [s.resolved() for s in analysis.scn]
-    carbon = np.concatenate(([s.carbon_number for s in analysis.scn], split.carbon_number))
+    carbon = np.concatenate(([s.carbon_number for s in analysis.scn], fractions.carbon_number))
     carbon = carbon.astype(int)
-    z = np.concatenate(([s.mole_fraction / total for s in analysis.scn], split.mole_fraction))
-    mw = np.concatenate(([m for m, _ in measured], split.mw))
+    z = np.concatenate(([s.mole_fraction / total for s in analysis.scn], fractions.mole_fraction))
+    mw = np.concatenate(([m for m, _ in measured], fractions.mw))
     sg = np.concatenate(([g for _, g in measured], sg_split))
     is_measured = np.arange(carbon.size) < len(analysis.scn)
     names = tuple(f"C{n}" for n in carbon[:-1]) + (f"C{carbon[-1]}+",)
@@ -530,7 +530,8 @@ def characterise(
     }
     source = (
         f"gridflash plus-fraction characterisation: Whitson (1983) gamma split of "
-        f"C{plus.carbon_number}+ (alpha={split.alpha:g}, eta={split.eta:g} g/mol), SG at constant "
+        f"C{plus.carbon_number}+ (alpha={fractions.alpha:g}, eta={fractions.eta:g} g/mol), "
+        "SG at constant "
         f"Watson Kw={kw:.4f} (Whitson 1983 Kw relation); Tb: {methods['boiling_point']}; "
         f"Tc, Pc: {methods['critical']}; omega: {methods['acentric']}; Vc: Riazi & Daubert "
         f"(1980); lumped by equal mass, {mixing}-weighted"
@@ -550,18 +551,18 @@ def characterise(
         "plus_mw": float(plus.mw),
         "plus_sg": float(plus.sg),
         "input_total_mole_fraction": float(analysis.total),
-        "split": "Whitson (1983) three-parameter gamma distribution over molar mass",
-        "split_alpha": split.alpha,
-        "split_eta": split.eta,
-        "split_beta": split.beta,
+        "distribution": "Whitson (1983) three-parameter gamma distribution over molar mass",
+        "gamma_alpha": fractions.alpha,
+        "gamma_eta": fractions.eta,
+        "gamma_beta": fractions.beta,
         "scn_boundaries": (
             "SCN n spans molar masses [14n-6, 14n+8) g/mol (Whitson & Brule 2000 eta = 14n-6 "
             "rule at every carbon number); the first split fraction starts at eta"
         ),
         "max_carbon": int(max_carbon),
-        "last_carbon_number": int(split.carbon_number[-1]),
+        "last_carbon_number": int(fractions.carbon_number[-1]),
         "tail_closure": (
-            f"C{int(split.carbon_number[-1])}+ takes the remaining moles and mass of the "
+            f"C{int(fractions.carbon_number[-1])}+ takes the remaining moles and mass of the "
             "plus-fraction (mass-balance closure)"
         ),
         "specific_gravity": (

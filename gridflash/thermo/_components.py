@@ -70,15 +70,6 @@ class Component:
                 f"Component {self.name!r}: omega={self.omega!r} is outside the accepted range "
                 "(-1, 3) for an acentric factor"
             )
-        if self.vc is not None:
-            _check_positive(self.name, "vc", self.vc, "m3/mol")
-            if self.vc > 0.1:
-                raise InputError(
-                    f"Component {self.name!r}: vc={self.vc!r} m3/mol is implausibly large; "
-                    "give the critical volume in m3/mol (e.g. 9.86e-5 for methane)"
-                )
-        if self.zra is not None and (not _finite(self.zra) or not 0.1 < self.zra < 0.5):
-            raise InputError(f"Component {self.name!r}: zra={self.zra!r} is outside (0.1, 0.5)")
         if self.volume_shift is not None and (
             not _finite(self.volume_shift) or abs(self.volume_shift) >= 1.0
         ):
@@ -90,6 +81,29 @@ class Component:
             raise InputError(
                 f"Component {self.name!r}: pc={self.pc!r} Pa is outside 1e4..1e9 Pa; "
                 "critical pressures are given in Pa (e.g. 4.599e6 for methane)"
+            )
+        if not _TC_RANGE[0] <= self.tc <= _TC_RANGE[1]:
+            raise InputError(
+                f"Component {self.name!r}: tc={self.tc!r} K is outside {_TC_RANGE[0]:g}.."
+                f"{_TC_RANGE[1]:g} K; critical temperatures are given in K (e.g. 190.56 for "
+                "methane)"
+            )
+        # The derived constants are checked like given ones: a store records them and rebuilds
+        # the component from them (gridflash.store.mixture_from_store), so whatever is
+        # accepted here must be accepted there.
+        vc_key = "vc" if self.vc is not None else "estimated critical volume from tc, pc, omega"
+        _check_positive(self.name, "vc", self.critical_volume, "m3/mol")
+        if self.critical_volume > 0.1:
+            raise InputError(
+                f"Component {self.name!r}: {vc_key}={self.critical_volume!r} m3/mol is "
+                "implausibly large; give the critical volume in m3/mol (e.g. 9.86e-5 for "
+                "methane), and tc in K and pc in Pa"
+            )
+        zra_key = "zra" if self.zra is not None else "Rackett Z estimated from omega"
+        if not _finite(self.rackett_z) or not 0.1 < self.rackett_z < 0.5:
+            raise InputError(
+                f"Component {self.name!r}: {zra_key}={self.rackett_z!r} is outside (0.1, 0.5)"
+                + ("" if self.zra is not None else "; give zra, or an omega below 2.1")
             )
 
     @property
@@ -106,6 +120,11 @@ class Component:
         if self.zra is not None:
             return self.zra
         return 0.29056 - 0.08775 * self.omega
+
+
+#: Accepted critical temperatures (K): helium's 5.2 K to well above the heaviest petroleum
+#: pseudo-components (about 1,100 K for C80+ fractions); a value outside is a unit mistake.
+_TC_RANGE = (1.0, 3000.0)
 
 
 def _finite(value: object) -> bool:

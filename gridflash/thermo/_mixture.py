@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from functools import cached_property
+from typing import get_args
 
 import numpy as np
 
@@ -14,7 +15,8 @@ from ._cubic import CubicModel, R, eos_constants, kappa
 
 __all__ = ["EOS_NAMES", "Mixture"]
 
-EOS_NAMES: tuple[str, ...] = ("PR76", "PR78", "SRK")
+#: The equations of state by name (one list: the ``EosName`` option type).
+EOS_NAMES: tuple[str, ...] = get_args(EosName)
 
 
 class Mixture:

@@ -2,7 +2,7 @@
 
 Two jobs, both on the plus-fraction alone:
 
-* :func:`gamma_split` - mole fractions and molar masses of SCN fractions from Whitson's
+* :func:`gamma_fractions` - mole fractions and molar masses of SCN fractions from Whitson's
   three-parameter gamma distribution over molar mass;
 * :func:`constant_watson_sg` - specific gravity of each fraction from one Watson characterisation
   factor chosen so that the fractions, mixed at additive volumes, reproduce the plus-fraction's
@@ -25,7 +25,13 @@ from scipy.special import gammainc, gammaincc
 from .._errors import InputError
 from ._correlations import _WHITSON_KW, whitson_specific_gravity
 
-__all__ = ["GammaSplit", "constant_watson_sg", "default_eta", "gamma_split", "scn_lower_boundary"]
+__all__ = [
+    "GammaFractions",
+    "constant_watson_sg",
+    "default_eta",
+    "gamma_fractions",
+    "scn_lower_boundary",
+]
 
 #: The split stops at the last carbon number whose plus-tail still carries at least this share of
 #: the plus-fraction's moles; heavier fractions would be numerically empty and would make the
@@ -56,7 +62,7 @@ def default_eta(carbon_number: int) -> float:
 
 
 @dataclass(frozen=True)
-class GammaSplit:
+class GammaFractions:
     """SCN fractions of one plus-fraction.
 
     Attributes
@@ -125,7 +131,7 @@ def _incomplete_difference(a: float, ya: NDArray[np.float64], yb: NDArray[np.flo
     return np.where(use_upper, upper_form, lower_form)
 
 
-def gamma_split(
+def gamma_fractions(
     carbon_number: int,
     mole_fraction: float,
     mw: float,
@@ -133,7 +139,7 @@ def gamma_split(
     max_carbon: int = 45,
     alpha: float = 1.0,
     eta: float | None = None,
-) -> GammaSplit:
+) -> GammaFractions:
     """Split a plus-fraction into SCN fractions with Whitson's three-parameter gamma distribution.
 
     Parameters
@@ -153,7 +159,7 @@ def gamma_split(
 
     Returns
     -------
-    GammaSplit
+    GammaFractions
 
     Raises
     ------
@@ -219,7 +225,7 @@ def gamma_split(
     m[-1] = (z_plus * m_plus - np.sum(z[:-1] * m[:-1])) / z[-1]
     for arr in (carbons, z, m, bounds):
         arr.setflags(write=False)
-    return GammaSplit(
+    return GammaFractions(
         carbon_number=carbons,
         mole_fraction=z,
         mw=m,
