@@ -4,6 +4,15 @@ plots and exports (CSV, Parquet, NetCDF).
 
 from __future__ import annotations
 
+from ._envelopes import (
+    ENVELOPE_POINT_DIM,
+    ENVELOPE_VARIABLES,
+    add_envelopes,
+    composition_envelopes,
+    envelopes_part,
+    join_parts,
+    write_envelopes,
+)
 from ._export import (
     DEFAULT_SPLIT,
     SPLIT_NAMES,
@@ -32,6 +41,7 @@ from ._plot import (
     plot_table,
     property_map,
 )
+from ._study_plots import envelope_figure, swelling_figure
 from ._saturation_lines import (
     SATURATION_VARIABLES,
     add_saturation_lines,
@@ -39,6 +49,15 @@ from ._saturation_lines import (
 )
 
 __all__ = [
+    "ENVELOPE_POINT_DIM",
+    "ENVELOPE_VARIABLES",
+    "add_envelopes",
+    "composition_envelopes",
+    "envelopes_part",
+    "join_parts",
+    "write_envelopes",
+    "envelope_figure",
+    "swelling_figure",
     "AxisReport",
     "DEFAULT_LOOKUP_VARIABLES",
     "DEFAULT_SPLIT",

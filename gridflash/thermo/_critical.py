@@ -94,7 +94,8 @@ def critical_point(
     ``sum_i Dn_i ln f_i(z + eps Dn)`` (eps = 1e-4) along ``Dn_i = u_i sqrt(z_i)``; the secant
     method in ``V`` drives it to zero (relative change of ``V`` below 1e-12). The derivatives of
     the cubic EOS's Helmholtz energy are analytic (Michelsen & Mollerup 2007, ch. 3). A mixture
-    can have several critical points (or none); the one reached from the start is returned,
+    can have several critical points (or none); the one reached from the start is returned (if
+    the secant fails from it, from 0.9 and 1.1 times its volume, then from the default start),
     which is why :func:`phase_envelope` starts it at the crossing of its traced curve. A
     single-component feed returns its ``(Tc, Pc)``.
 
@@ -131,7 +132,14 @@ def critical_point(
     if not (math.isfinite(t0) and t0 > 0 and math.isfinite(v0) and v0 > 0):
         raise InputError(f"temperature={temperature!r} and volume={volume!r} must be positive")
     dn = np.empty(sub.size)
-    t, v, p, lam, c, ok = _ke.critical_cell(eos, sub, t0, v0, dn)
+    # The secant in V can overshoot from one start: a few others before giving up (the
+    # Heidemann-Khalil default last).
+    t_hk = 1.5 * float(sub @ mixture.tc[present])
+    v_hk = 4.0 * float(sub @ mixture.model.b[present])
+    for t_s, v_s in ((t0, v0), (t0, 0.9 * v0), (t0, 1.1 * v0), (t_hk, v_hk)):
+        t, v, p, lam, c, ok = _ke.critical_cell(eos, sub, t_s, v_s, dn)
+        if ok and p > 0:
+            break
     mode[present] = dn
     return CriticalPoint(float(t), float(p), float(v), bool(ok) and p > 0, float(lam), float(c),
                          mode)

@@ -41,7 +41,7 @@ import math
 import numpy as np
 
 from ._policy import R, kernel
-from .codes import ROOT_MIN_GIBBS
+from .codes import ROOT_LIQUID, ROOT_MIN_GIBBS, ROOT_VAPOUR
 from .eos import DLNPHI_WS, dlnphi_cell, phase_cell, reduced_cell, solve_cell, wilson_ln_k_cell
 
 _NAN = math.nan
@@ -75,6 +75,7 @@ _MAX_DLNP = 0.12  # largest change of ln P per step
 _CRIT_APPROACH = 0.12  # |ln K_s| below which the step jumps across the critical point
 _EXT_TOL = 1e-10  # |d ln P / d u| (or ln T) at a refined extremum
 _EXT_MAXITER = 40
+_START_SUBSTITUTIONS = 15
 
 # Rows of the envelope workspace ``ws`` (_WS_ROWS, nc).
 _X, _Y, _LNPHI_X, _LNPHI_Y, _PSI_X, _PSI_Y, _SQRT_A, _B_I, _XN, _YN = range(10)
@@ -82,7 +83,7 @@ _WS_ROWS = 10
 
 
 @kernel
-def _residual(eos, z, beta, xv, ws, f):
+def _residual(eos, z, beta, xv, ws, f, roots):
     """Envelope residuals F_1 .. F_nc+1 at ``xv`` into ``f``.
 
     Returns (Z_x, A_x, B_x, Z_y, A_y, B_y, sum x, sum y) of the two phases at the point.
@@ -103,11 +104,16 @@ def _residual(eos, z, beta, xv, ws, f):
     for i in range(nc):
         ws[_XN, i] = ws[_X, i] / sx
         ws[_YN, i] = ws[_Y, i] / sy
+    # Lowest-Gibbs roots along the curve; at the start (``roots`` = 1) the feed takes the
+    # vapour root and the incipient phase the liquid root, so that Newton iterates on the wrong
+    # side of the dew point do not switch the roots.
+    root_y = ROOT_VAPOUR if roots == 1 else ROOT_MIN_GIBBS
+    root_x = ROOT_LIQUID if roots == 1 else ROOT_MIN_GIBBS
     zx, ax, bx = phase_cell(
-        ws[_XN], ws[_SQRT_A], ws[_B_I], omk, d1, d2, ROOT_MIN_GIBBS, ws[_LNPHI_X], ws[_PSI_X]
+        ws[_XN], ws[_SQRT_A], ws[_B_I], omk, d1, d2, root_x, ws[_LNPHI_X], ws[_PSI_X]
     )
     zy, ay, by = phase_cell(
-        ws[_YN], ws[_SQRT_A], ws[_B_I], omk, d1, d2, ROOT_MIN_GIBBS, ws[_LNPHI_Y], ws[_PSI_Y]
+        ws[_YN], ws[_SQRT_A], ws[_B_I], omk, d1, d2, root_y, ws[_LNPHI_Y], ws[_PSI_Y]
     )
     for i in range(nc):
         f[i] = xv[i] + ws[_LNPHI_Y, i] - ws[_LNPHI_X, i]
@@ -116,14 +122,14 @@ def _residual(eos, z, beta, xv, ws, f):
 
 
 @kernel
-def _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws):
+def _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws, roots):
     """Residuals into ``f`` and the Jacobian (rows 0..nc; columns 0..nc+1) into ``jac``.
 
     Returns the Z of the x phase and of the y phase, or NaN where a root failed.
     """
     omk, d1, d2 = eos[4], eos[5], eos[6]
     nc = z.shape[0]
-    zx, ax, bx, zy, ay, by, sx, sy = _residual(eos, z, beta, xv, ws, f)
+    zx, ax, bx, zy, ay, by, sx, sy = _residual(eos, z, beta, xv, ws, f, roots)
     if not (math.isfinite(zx) and math.isfinite(zy)):
         return _NAN, _NAN
     # d x_j / d ln K_j and d y_j / d ln K_j (into f2 and xt as scratch).
@@ -149,16 +155,16 @@ def _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws):
         for i in range(nc + 2):
             xt[i] = xv[i]
         xt[col] += ENV_DX
-        _residual(eos, z, beta, xt, ws, f2)
+        _residual(eos, z, beta, xt, ws, f2, roots)
         for i in range(nc + 1):
             jac[i, col] = (f2[i] - f[i]) / ENV_DX
     # Restore the workspace to the point itself (the caller reads phases from it).
-    _residual(eos, z, beta, xv, ws, f2)
+    _residual(eos, z, beta, xv, ws, f2, roots)
     return zx, zy
 
 
 @kernel
-def _newton(eos, z, beta, xv, spec, value, ws, wk):
+def _newton(eos, z, beta, xv, spec, value, ws, wk, roots=0):
     """Solve the envelope equations with ``X[spec] = value`` from ``xv`` (updated in place).
 
     ``wk`` is a tuple of work arrays. Returns (converged, iterations).
@@ -168,7 +174,7 @@ def _newton(eos, z, beta, xv, spec, value, ws, wk):
     n = nc + 2
     xv[spec] = value
     for it in range(ENV_MAXITER):
-        zx, zy = _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws)
+        zx, zy = _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws, roots)
         if not (math.isfinite(zx) and math.isfinite(zy)):
             return False, it
         norm = 0.0
@@ -206,7 +212,7 @@ def _tangent(eos, z, beta, xv, spec, ws, wk, tau):
     f, f2, xt, jac, a, rhs, dx, dphi, dws = wk
     nc = z.shape[0]
     n = nc + 2
-    _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws)
+    _jacobian(eos, z, beta, xv, ws, f, jac, f2, xt, dphi, dws, 0)
     for i in range(nc + 1):
         for j in range(n):
             a[i, j] = jac[i, j]
@@ -251,7 +257,22 @@ def _dew_start(eos, pc, omega, z, beta, lnp, xv, ws, wk):
         xv[i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p, t)
     xv[nc] = math.log(t)
     xv[nc + 1] = lnp
-    ok, _ = _newton(eos, z, beta, xv, nc + 1, lnp, ws, wk)
+    f = wk[0]
+    # Successive substitution first: ln K <- ln phi(x) - ln phi(y), and one Newton step in ln T
+    # on sum x - 1 = 0 (Wilson's d ln K / d ln T), so that Newton starts close.
+    for _ in range(_START_SUBSTITUTIONS):
+        zx, _, _, zy, _, _, sx, _ = _residual(eos, z, beta, xv, ws, f, 1)
+        if not (math.isfinite(zx) and math.isfinite(zy)):
+            break
+        slope = 0.0
+        for i in range(nc):
+            xv[i] -= f[i]
+            slope -= ws[_X, i] * 5.373 * (1.0 + omega[i]) * tc[i] / math.exp(xv[nc])
+        if slope < 0.0:
+            xv[nc] -= max(-0.05, min(0.05, (sx - 1.0) / slope))
+    ok, _ = _newton(eos, z, beta, xv, nc + 1, lnp, ws, wk, 1)
+    if ok:  # the same point with the lowest-Gibbs roots the continuation uses
+        ok, _ = _newton(eos, z, beta, xv, nc + 1, lnp, ws, wk, 0)
     return ok
 
 
@@ -338,7 +359,7 @@ def envelope_trace(eos, pc, omega, z, beta, lnp_start, lnt_min, lnp_max, pts, ta
             taus[count, i] = tau[i]
             prev_tau[i] = tau[i]
         f = wk[0]
-        zx, _, _, zy, _, _, _, _ = _residual(eos, z, beta, xv, ws, f)
+        zx, _, _, zy, _, _, _, _ = _residual(eos, z, beta, xv, ws, f, 0)
         zinfo[count, 0] = zx
         zinfo[count, 1] = zy
         count += 1
@@ -494,7 +515,7 @@ def residual_norm(eos, z, beta, xv):
     nc = z.shape[0]
     ws = np.empty((_WS_ROWS, nc))
     f = np.empty(nc + 1)
-    _residual(eos, z, beta, xv, ws, f)
+    _residual(eos, z, beta, xv, ws, f, 0)
     norm = 0.0
     for i in range(nc + 1):
         norm = max(norm, abs(f[i]))
