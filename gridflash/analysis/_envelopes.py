@@ -17,8 +17,13 @@ import xarray as xr
 from numpy.typing import NDArray
 
 from .._errors import StoreError
-from ..store import consolidate, mixture_from_store, open_table, open_unconsolidated
-from ..store import write_line_variables
+from ..store import (
+    consolidate,
+    mixture_from_store,
+    open_table,
+    open_unconsolidated,
+    write_line_variables,
+)
 from ..thermo import EnvelopeBranch, EnvelopeStatus, Mixture, phase_envelope
 
 __all__ = [
