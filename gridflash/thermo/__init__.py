@@ -17,6 +17,13 @@ from ._critical import CriticalPoint, critical_point
 from ._cubic import CubicModel, cubic_roots, phase_state, reduced_parameters
 from ._envelope import EnvelopeBranch, EnvelopeStatus, PhaseEnvelope, phase_envelope
 from ._flash import flash
+from ._miscibility import (
+    MiscibilityResult,
+    MiscibilityStatus,
+    first_contact_mmp,
+    multi_contact_mmp,
+    upper_saturation_pressure,
+)
 from ._mixture import EOS_NAMES, Mixture
 from ._properties import (
     lbc_viscosity,
@@ -48,6 +55,8 @@ __all__ = [
     "CubicModel",
     "FlashResult",
     "FlashStatus",
+    "MiscibilityResult",
+    "MiscibilityStatus",
     "Mixture",
     "PhaseKind",
     "PhaseLabel",
@@ -60,8 +69,10 @@ __all__ = [
     "builtin_names",
     "critical_point",
     "cubic_roots",
+    "first_contact_mmp",
     "flash",
     "lbc_viscosity",
+    "multi_contact_mmp",
     "li_pseudocritical_temperature",
     "peneloux_shift",
     "phase_envelope",
@@ -73,5 +84,6 @@ __all__ = [
     "reduced_parameters",
     "stability_test",
     "stiel_thodos_viscosity",
+    "upper_saturation_pressure",
     "wilson_ln_k",
 ]

@@ -26,7 +26,8 @@ Critical point (Heidemann & Khalil, AIChE J. 26 (1980) 769; in the form of Miche
 Phase Equilib. 16 (1984) 57): at fixed total volume ``V`` and ``n = z``, the smallest eigenvalue
 ``lambda`` of ``B_ij = sqrt(z_i z_j) d ln f_i / d n_j`` (constant T, V) is brought to zero by
 Newton's method in ``T``; with ``Dn_i = u_i sqrt(z_i)`` from its eigenvector ``u``, the cubic form
-``c = sum_ijk d^3 A / dn_i dn_j dn_k Dn_i Dn_j Dn_k / RT`` is evaluated by central differences of
+``c = sum_ijk d^3 A / dn_i dn_j dn_k Dn_i Dn_j Dn_k / RT`` (with ``sum_i Dn_i b_i > 0``: c is odd in
+``Dn``) is evaluated by central differences of
 ``sum_i Dn_i ln f_i(n + eps Dn)`` (Michelsen 1984, eq. 20), and ``c(V) = 0`` is solved by the
 secant method in ``V``. The ``T, V`` derivatives of the generic cubic's residual Helmholtz energy
 are those of Michelsen & Mollerup (2007), ch. 3.
@@ -526,7 +527,8 @@ def residual_norm(eos, z, beta, xv):
 # Critical point (Heidemann & Khalil 1980; Michelsen 1984)
 # --------------------------------------------------------------------------------------------
 
-_CRIT_TOL_V = 1e-12  # relative change of V at convergence
+_CRIT_TOL_V = 1e-8  # relative change of V at convergence (the noise of the cubic form)
+_CRIT_TOL_C = 1e-8  # |cubic form| at convergence (its finite-difference noise: 1e-8-1e-6)
 _CRIT_MAXITER = 60
 _CRIT_EPS = 1e-4  # step of the central difference of the cubic form
 _CRIT_DT = 1e-6  # relative step of d lambda / d T
@@ -624,8 +626,15 @@ def _lambda_min(eos, z, t, v, sa, d_i, hess, bmat, sqz, u):
         for j in range(nc):
             bmat[i, j] = sqz[i] * sqz[j] * hess[i, j]
     w, vecs = np.linalg.eigh(bmat)
+    # The eigenvector's sign is arbitrary and the cubic form is odd in it: orient the mode so
+    # that it increases the co-volume (sum_i Dn_i b_i > 0), continuously in T and V.
+    b = eos[2]
+    s = 0.0
     for i in range(nc):
-        u[i] = vecs[i, 0]
+        s += vecs[i, 0] * sqz[i] * b[i]
+    sign = -1.0 if s < 0.0 else 1.0
+    for i in range(nc):
+        u[i] = sign * vecs[i, 0]
     return w[0]
 
 
@@ -707,6 +716,9 @@ def critical_cell(eos, z, t0, v0, out_dn):
     )
     converged = False
     for _ in range(_CRIT_MAXITER):
+        if math.isfinite(c_b) and abs(c_b) < _CRIT_TOL_C:
+            converged = math.isfinite(t_b)  # at the noise level of the cubic form
+            break
         if not (math.isfinite(c_a) and math.isfinite(c_b)) or c_b == c_a:
             break
         # Secant step in V, kept above the co-volume and within a factor 1.5.
