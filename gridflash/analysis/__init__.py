@@ -41,6 +41,7 @@ from ._plot import (
     plot_table,
     property_map,
 )
+from ._swelling import mixing_streams, swelling_study
 from ._study_plots import envelope_figure, swelling_figure
 from ._saturation_lines import (
     SATURATION_VARIABLES,
@@ -57,6 +58,8 @@ __all__ = [
     "join_parts",
     "write_envelopes",
     "envelope_figure",
+    "mixing_streams",
+    "swelling_study",
     "swelling_figure",
     "AxisReport",
     "DEFAULT_LOOKUP_VARIABLES",
