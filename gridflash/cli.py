@@ -696,5 +696,76 @@ def _envelope_text(envelopes, comp_dim: str, p_unit: str, t_unit: str) -> str:
     return "\n".join(rows)
 
 
+_EPILOG_MMP = """\b
+Examples:
+  gridflash mmp configs/volatile_oil_co2.toml               # print MMP vs temperature
+  gridflash mmp configs/volatile_oil_co2.zarr --plot figs   # store it, draw P-x diagrams
+"""
+
+
+@cli.command("mmp", epilog=_EPILOG_MMP)
+@click.argument("target", type=click.Path(exists=True, path_type=Path))
+@click.option("--contacts", type=click.IntRange(min=2), default=40, show_default=True,
+              help="Mixing-cell contacts per pressure.")
+@click.option("--plot", "plot_dir", type=click.Path(file_okay=False, path_type=Path),
+              metavar="DIR", help="Also draw the P-x / swelling diagram of each temperature.")
+@click.option("--pressure-unit", default="bar", show_default=True, metavar="UNIT")
+@click.option("--temperature-unit", default="degC", show_default=True, metavar="UNIT")
+def mmp_command(target: Path, contacts: int, plot_dir: Path | None, pressure_unit: str,
+                temperature_unit: str) -> None:
+    """Print the first- and multi-contact minimum miscibility pressure of the oil and gas of
+    TARGET at each of its temperatures, with the swelling study along its mixing axis.
+
+    TARGET is a store (the results are then stored in it too) or a TOML config. Its
+    composition axis must mix two streams: the first is the oil, the second the gas.
+    """
+    import numpy as np
+    import xarray as xr
+
+    from ._errors import ConfigError
+    from .analysis import add_studies, miscibility_study, swelling_study
+    from .config import load_config, pressure_from_pa, temperature_from_kelvin
+    from .thermo import MiscibilityStatus
+
+    if target.is_dir():
+        study = add_studies(target, contacts=contacts)
+        where = f"stored in {target}"
+    else:
+        spec = load_config(target)
+        axis = spec.composition
+        if spec.sampling is not None or axis.name != "mixing_ratio" or len(axis.streams) != 2:
+            raise ConfigError(
+                f"{target}: the composition axis is not a two-stream mixing axis "
+                "([composition] kind = \"mixing\"); MMP needs an oil and a gas stream")
+        streams = dict(spec.streams)
+        oil, gas = (np.array(streams[name]) for name in axis.streams)
+        mixture = spec.fluid.mixture()
+        t = np.array(spec.temperature.values)
+        study = xr.merge([
+            swelling_study(mixture, oil, gas, t, np.array(axis.values)),
+            miscibility_study(mixture, oil, gas, t, contacts=contacts)])
+        where = "not stored (a config)"
+    click.echo(f"{'temperature':>12}  {'first-contact MMP':>17}  {'multi-contact MMP':>17}  "
+               f"status  [{temperature_unit}, {pressure_unit}]")
+    for k in range(study.sizes["temperature"]):
+        s = study.isel(temperature=k)
+        status = MiscibilityStatus(int(s.mmp_status)).name.lower()
+        if int(s.mmp_three_phase):
+            status += ", third phase seen"
+        click.echo(
+            f"{temperature_from_kelvin(float(s.temperature), temperature_unit):>12.2f}  "
+            f"{pressure_from_pa(float(s.first_contact_mmp), pressure_unit):>17.2f}  "
+            f"{pressure_from_pa(float(s.multi_contact_mmp), pressure_unit):>17.2f}  {status}")
+    click.echo(f"mixing cells: {contacts} contacts; {where}")
+    if plot_dir is not None:
+        from .analysis import swelling_figure
+
+        for k in range(study.sizes["temperature"]):
+            out = swelling_figure(study, plot_dir / f"swelling_{k}.png", temperature_index=k,
+                                  pressure_unit=pressure_unit,
+                                  temperature_unit=temperature_unit)
+            click.echo(f"wrote {out}")
+
+
 if __name__ == "__main__":  # pragma: no cover - python -m gridflash.cli
     main()

@@ -129,3 +129,81 @@ def test_bad_input(kwargs, match):
     args = {"oil": NC4, "gas": CO2, **kwargs}
     with pytest.raises(InputError, match=match):
         multi_contact_mmp(BINARY, args.pop("oil"), args.pop("gas"), 344.0, **args)
+
+
+_BINARY_CONFIG = """\
+# Invented test config: pure CO2 injected into pure n-butane.
+[fluid]
+eos = "PR78"
+components = ["CO2", "nC4"]
+kij = { "CO2-nC4" = 0.13 }
+
+[streams.butane]
+mole_fractions = { nC4 = 1.0 }
+
+[streams.co2]
+mole_fractions = { CO2 = 1.0 }
+
+[pressure]
+unit = "bar"
+start = 20.0
+stop = 120.0
+count = 6
+
+[temperature]
+unit = "K"
+values = [344.26]
+
+[composition]
+kind = "mixing"
+streams = ["butane", "co2"]
+start = 0.0
+stop = 1.0
+count = 6
+
+[run]
+output = "binary.zarr"
+workers = 1
+scheduler = "threads"
+"""
+
+
+def test_cli_mmp_for_a_config_and_a_store(tmp_path):
+    from click.testing import CliRunner
+
+    from gridflash.cli import cli
+
+    config = tmp_path / "binary.toml"
+    config.write_text(_BINARY_CONFIG)
+    result = CliRunner().invoke(cli, ["mmp", str(config), "--plot", str(tmp_path / "figs")])
+    assert result.exit_code == 0, result.output
+    row = [s for s in result.output.splitlines() if s.strip().startswith("71.11")][0]
+    first, multi = (float(v) for v in row.split()[1:3])
+    locus = _critical_locus_pressure(344.26) / 1e5
+    assert multi == pytest.approx(locus, rel=2e-4) and first == pytest.approx(locus, rel=2e-4)
+    assert (tmp_path / "figs" / "swelling_0.png").stat().st_size > 10_000
+    # A store: computed and stored with the table.
+    result = CliRunner().invoke(cli, ["run", str(config), "--quiet"])
+    assert result.exit_code == 0, result.output
+    store = tmp_path / "binary.zarr"
+    result = CliRunner().invoke(cli, ["mmp", str(store)])
+    assert result.exit_code == 0, result.output
+    with gridflash.open_table(store) as ds:
+        assert float(ds.multi_contact_mmp[0]) / 1e5 == pytest.approx(multi, abs=0.01)
+        assert ds.swelling_factor.dims == ("temperature", "mixing_ratio")
+        assert ds.multi_contact_mmp.attrs["units"] == "Pa"
+
+
+def test_cli_mmp_refuses_a_list_axis_in_one_line(tmp_path):
+    from click.testing import CliRunner
+
+    from gridflash.cli import cli
+
+    config = tmp_path / "list.toml"
+    config.write_text(_BINARY_CONFIG.replace(
+        'kind = "mixing"\nstreams = ["butane", "co2"]\nstart = 0.0\nstop = 1.0\ncount = 6',
+        'kind = "list"\nstreams = ["butane", "co2"]'))
+    result = CliRunner().invoke(cli, ["mmp", str(config)])
+    assert result.exit_code == 1
+    assert "not a two-stream mixing axis" in result.output
+    assert result.output.strip().count("\n") == 0

@@ -41,13 +41,13 @@ from ._plot import (
     plot_table,
     property_map,
 )
-from ._swelling import mixing_streams, swelling_study
-from ._study_plots import envelope_figure, swelling_figure
 from ._saturation_lines import (
     SATURATION_VARIABLES,
     add_saturation_lines,
     saturation_lines,
 )
+from ._study_plots import envelope_figure, swelling_figure
+from ._swelling import add_studies, miscibility_study, mixing_streams, swelling_study
 
 __all__ = [
     "ENVELOPE_POINT_DIM",
@@ -59,6 +59,8 @@ __all__ = [
     "write_envelopes",
     "envelope_figure",
     "mixing_streams",
+    "add_studies",
+    "miscibility_study",
     "swelling_study",
     "swelling_figure",
     "AxisReport",

@@ -145,7 +145,8 @@ def swelling_figure(
     """
     figure = _matplotlib()
     s = study.isel(temperature=temperature_index)
-    x = s.gas_fraction.values
+    comp_dim = s.swelling_factor.dims[0]
+    x = s[comp_dim].values
     p = pressure_from_pa(s.swelling_saturation_pressure.values, pressure_unit)
     kind = s.swelling_saturation_kind.values
     fig = figure(figsize=(8, 5.5), layout="constrained")

@@ -23,9 +23,16 @@ import xarray as xr
 from numpy.typing import ArrayLike, NDArray
 
 from .._errors import InputError, StoreError
-from ..thermo import Mixture, flash, upper_saturation_pressure
+from ..thermo import (
+    MiscibilityStatus,
+    Mixture,
+    first_contact_mmp,
+    flash,
+    multi_contact_mmp,
+    upper_saturation_pressure,
+)
 
-__all__ = ["mixing_streams", "swelling_study"]
+__all__ = ["add_studies", "miscibility_study", "mixing_streams", "swelling_study"]
 
 #: Relative step above the saturation pressure at which the saturated phase is evaluated.
 _ABOVE = 1e-7
@@ -142,3 +149,83 @@ def mixing_streams(ds: xr.Dataset) -> tuple[NDArray[np.float64], NDArray[np.floa
     oil = np.clip(oil, 0.0, None)
     gas = np.clip(gas, 0.0, None)
     return oil / oil.sum(), gas / gas.sum(), comp_dim
+
+
+def miscibility_study(
+    mixture: Mixture,
+    oil: NDArray[np.float64],
+    gas: NDArray[np.float64],
+    temperatures: ArrayLike,
+    *,
+    contacts: int = 40,
+) -> xr.Dataset:
+    """First- and multi-contact MMP at each temperature (over ``temperature``).
+
+    Variables: ``first_contact_mmp``, ``first_contact_gas_fraction``, ``multi_contact_mmp``
+    (Pa), ``mmp_status`` (:class:`gridflash.thermo.MiscibilityStatus`) and
+    ``mmp_three_phase`` (a third phase appeared in the cells or below a saturation point: the
+    two-phase picture of miscibility may not hold).
+    """
+    t = np.asarray(temperatures, dtype=float).ravel()
+    fc = np.full(t.size, np.nan)
+    fx = np.full(t.size, np.nan)
+    mc = np.full(t.size, np.nan)
+    status = np.zeros(t.size, dtype=np.int8)
+    three = np.zeros(t.size, dtype=np.int8)
+    for k, tk in enumerate(t):
+        fc[k], fx[k], three_fc = first_contact_mmp(mixture, oil, gas, tk)
+        r = multi_contact_mmp(mixture, oil, gas, tk, contacts=contacts)
+        mc[k], status[k] = r.pressure, int(r.status)
+        three[k] = int(three_fc or r.three_phase)
+    flags = {"flag_values": [int(m) for m in MiscibilityStatus],
+             "flag_meanings": " ".join(m.name.lower() for m in MiscibilityStatus)}
+    return xr.Dataset(
+        {
+            "first_contact_mmp": (("temperature",), fc, {
+                "units": "Pa", "long_name": "first-contact minimum miscibility pressure "
+                "(cricondenbar of the P-x diagram of oil and injection gas)"}),
+            "first_contact_gas_fraction": (("temperature",), fx, {
+                "units": "1", "long_name": "gas fraction of the mixture at the first-contact "
+                "MMP"}),
+            "multi_contact_mmp": (("temperature",), mc, {
+                "units": "Pa", "long_name": "multi-contact minimum miscibility pressure "
+                "(mixing cells, Ahmadi & Johns 2011; no dispersion)",
+                "comment": f"{contacts} contacts; NaN unless mmp_status is converged"}),
+            "mmp_status": (("temperature",), status, {
+                "units": "1", "long_name": "outcome of the multi-contact MMP", **flags}),
+            "mmp_three_phase": (("temperature",), three, {
+                "units": "1", "long_name": "a third phase appeared in the mixing cells or "
+                "below a saturation point of the P-x scan",
+                "flag_values": [0, 1], "flag_meanings": "no_third_phase third_phase_seen"}),
+        },
+        coords={"temperature": t},
+    )
+
+
+def add_studies(path, *, contacts: int = 40) -> xr.Dataset:
+    """Compute the swelling study and the MMPs of a store with a two-stream mixing axis, at
+    the table's temperatures and gas fractions, and store them in it.
+
+    Raises
+    ------
+    StoreError
+        Not a complete gridflash store, or its composition axis is not a two-stream mixing
+        axis.
+    """
+    from pathlib import Path
+
+    from ..store import consolidate, mixture_from_store, open_table, write_line_variables
+
+    store = Path(path).expanduser()
+    with open_table(store) as ds:
+        oil, gas, comp_dim = mixing_streams(ds)
+        mixture = mixture_from_store(ds)
+        temperatures = ds.temperature.values
+        ratios = ds[comp_dim].values
+    study = xr.merge([
+        swelling_study(mixture, oil, gas, temperatures, ratios, comp_dim=comp_dim),
+        miscibility_study(mixture, oil, gas, temperatures, contacts=contacts),
+    ])
+    write_line_variables(store, study)
+    consolidate(store)
+    return study
