@@ -298,24 +298,30 @@ def _extremum(eos, sub, pts, taus, var, ct, cp) -> tuple[float, float]:
 
 
 def _checked(mixture: Mixture, zz: FloatArray, env: PhaseEnvelope) -> PhaseEnvelope:
-    """Flash either side of every point in P and in T; flag points the flash does not confirm."""
+    """Flash either side of every point in P (then in T where that does not decide it); flag
+    points the flash does not confirm."""
     from ._flash import flash  # the flash is the oracle; imported here to avoid a cycle
 
-    n = len(env)
     d = _PROBE
-    p = np.concatenate([env.pressure * (1 + d), env.pressure * (1 - d),
-                        env.pressure, env.pressure])
-    t = np.concatenate([env.temperature, env.temperature,
-                        env.temperature * (1 + d), env.temperature * (1 - d)])
-    r = flash(mixture, p, t, np.broadcast_to(zz, (4 * n, zz.size)))
-    count = r.phase_count.reshape(4, n)
-    beta = r.vapour_fraction.reshape(4, n)
-    near_edge = np.minimum(beta, 1.0 - beta) < _PROBE_BETA
-    two_ok = (count == 2) & near_edge & r.converged.reshape(4, n)
-    one = count == 1
-    confirmed = np.zeros(n, dtype=bool)
-    for a, b in ((0, 1), (2, 3)):
-        confirmed |= (one[a] & two_ok[b]) | (one[b] & two_ok[a])
+    confirmed = np.zeros(len(env), dtype=bool)
+    todo = np.arange(len(env))
+    for dp, dt in ((d, 0.0), (0.0, d)):  # pressure probes, then temperature probes
+        if not todo.size:
+            break
+        p = env.pressure[todo]
+        t = env.temperature[todo]
+        r = flash(mixture, np.concatenate([p * (1 + dp), p * (1 - dp)]),
+                  np.concatenate([t * (1 + dt), t * (1 - dt)]),
+                  np.broadcast_to(zz, (2 * todo.size, zz.size)))
+        count = r.phase_count.reshape(2, todo.size)
+        beta = r.vapour_fraction.reshape(2, todo.size)
+        two_ok = (count == 2) & (np.minimum(beta, 1.0 - beta) < _PROBE_BETA)
+        two_ok &= r.converged.reshape(2, todo.size)
+        one = count == 1
+        ok = (one[0] & two_ok[1]) | (one[1] & two_ok[0])
+        confirmed[todo[ok]] = True
+        # Three phases next to the point: not the boundary of the two-phase region; settled.
+        todo = todo[~ok & ~(count == 3).any(axis=0)]
     status = env.status
     away = env.branch != _ke.BRANCH_CRITICAL
     if env.complete and np.any(~confirmed & away & _away_from_critical(env)):
