@@ -94,9 +94,10 @@ def critical_point(
     ``sum_i Dn_i ln f_i(z + eps Dn)`` (eps = 1e-4) along ``Dn_i = u_i sqrt(z_i)``; the secant
     method in ``V`` drives it to zero (``|c| < 1e-8``, or a relative change of ``V`` below 1e-8:
     the noise level of the finite-difference cubic form). The derivatives of the cubic EOS's
-    Helmholtz energy are analytic (Michelsen & Mollerup 2007, ch. 3). A mixture can have several critical points (or none); the one reached from the start is returned (if
-    the secant fails from it, from 0.9 and 1.1 times its volume, then from the default start),
-    which is why :func:`phase_envelope` starts it at the crossing of its traced curve. A
+    Helmholtz energy are analytic (Michelsen & Mollerup 2007, ch. 3). A mixture can have
+    several critical points (or none); the one reached from the start is returned (if the
+    secant fails from it, from 0.9 and 1.1 times its volume, then from the default start), which
+    is why :func:`phase_envelope` starts it at the crossing of its traced curve. A
     single-component feed returns its ``(Tc, Pc)``.
 
     Examples

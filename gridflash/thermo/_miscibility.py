@@ -245,11 +245,14 @@ def multi_contact_mmp(
     displacement; the MMP is the pressure at which the shortest tie-line length
     ``sqrt(sum (x_i - y_i)^2)`` over the cells goes to zero.
 
-    The pressure is raised by 8 % steps until no cell has a tie line longer than 1e-3; the
-    last bracket is bisected 14 times on that test, and the tie-line lengths of the pressures
-    below the vanishing point are extrapolated to zero by a quadratic fit of the squared
-    length against pressure (near a critical point the length of a tie line vanishes as the
-    square root of the distance in pressure, in a classical EOS).
+    The pressure is raised by 8 % steps while the shortest tie line over the cells shortens;
+    it ends either by vanishing (no two-phase cell, or none longer than 1e-3) or by growing
+    again (past the MMP the shortest tie line of the cells' mixing zone lengthens). That
+    bracket is bisected 14 times on "still shorter", and the shortening branch (its last three
+    or four points, each at least 20 % longer than the next) is extrapolated to zero length by
+    ``TL^(1/n)`` linear in ``P`` with ``n = 1/2`` (a binary's tie line near its critical point
+    in a classical EOS) or ``n = 1`` (the cells' crossover tie line), whichever fits better:
+    the MMP is where it reaches zero.
 
     Assumptions: no dispersion (the cells are a numerical device, not a model of mixing in
     the reservoir; more contacts converge the key tie lines, fewer leave them too long and
@@ -281,35 +284,72 @@ def multi_contact_mmp(
                                  np.array(pressures)[order], np.array(lengths)[order], contacts)
 
     def open_(tl):
-        return np.isfinite(tl) and tl > _TL_FLOOR
+        return bool(np.isfinite(tl) and tl > _TL_FLOOR)
 
+    # 1. Scan upwards while the shortest tie line shortens.
     p_lo = float(start_pressure)
-    if not open_(probe(p_lo)):
+    tl_lo = probe(p_lo)
+    if not open_(tl_lo):
         return done(MiscibilityStatus.MISCIBLE_AT_START)
     p_hi = p_lo
     while True:
         p_hi *= _P_STEP
         if p_hi > max_pressure:
             return done(MiscibilityStatus.NOT_BRACKETED)
-        if not open_(probe(p_hi)):
+        tl_hi = probe(p_hi)
+        if not open_(tl_hi) or tl_hi >= tl_lo:
             break
-        p_lo = p_hi
+        p_lo, tl_lo = p_hi, tl_hi
+    # 2. Close in on the end of the shortening branch: bisection on "still open and shorter
+    # than at the lower end" (past the vanishing point the cells' shortest tie line is either
+    # gone or grows again).
     for _ in range(_REFINE):
         mid = 0.5 * (p_lo + p_hi)
-        if open_(probe(mid)):
-            p_lo = mid
+        tl = probe(mid)
+        if open_(tl) and tl < tl_lo:
+            p_lo, tl_lo = mid, tl
         else:
             p_hi = mid
     near = [i for i, p in enumerate(pressures) if p >= p_lo / _P_STEP**2]
     if any(threes[i] for i in near):
         return done(MiscibilityStatus.THREE_PHASE)
-    below = sorted((pressures[i], lengths[i]) for i in near if open_(lengths[i]))
-    pts = np.array(below[-3:])
+    # 3. Extrapolate the shortening branch to a zero length (Ahmadi & Johns extrapolate the
+    # tie-line length to zero in the same way).
+    branch = sorted((pressures[i], lengths[i]) for i in near
+                    if open_(lengths[i]) and pressures[i] <= p_lo)
+    pts = _monotone_tail(branch)
     if pts.shape[0] < 3:
         return done(MiscibilityStatus.CONVERGED, p_hi)
-    coef = np.polyfit(pts[:, 0] / p_lo, pts[:, 1] ** 2, 2)
-    roots = np.roots(coef) * p_lo
-    roots = roots[np.isreal(roots)].real
-    roots = roots[(roots >= p_lo * (1 - 1e-9)) & (roots <= p_hi * 1.05)]
-    mmp = float(roots.min()) if roots.size else p_hi
-    return done(MiscibilityStatus.CONVERGED, mmp)
+    return done(MiscibilityStatus.CONVERGED, _power_law_zero(pts, p_lo, p_hi))
+
+
+def _monotone_tail(branch):
+    """Up to four points (P ascending) of the last falling run of tie-line lengths, thinned so
+    that each is at least 20 % longer than the next (bisection crowds points near the end of
+    the branch, which would otherwise decide the fit alone)."""
+    pts = [branch[-1]]
+    for p, tl in reversed(branch[:-1]):
+        if tl <= pts[-1][1]:
+            break
+        if tl >= 1.2 * pts[-1][1]:
+            pts.append((p, tl))
+        if len(pts) == 4:
+            break
+    return np.array(pts[::-1])
+
+
+def _power_law_zero(pts, p_lo, p_hi):
+    """P0 of the better of two fits ``TL^(1/n) = a (P0 - P)``, n = 1/2 (a binary's tie line
+    near its critical point, classical EOS) and n = 1 (the cells' crossover tie line), by
+    linear least squares on the points; kept within ``[p_lo, max(p_hi, 1.08 p_lo)]``."""
+    p, tl = pts[:, 0], pts[:, 1]
+    best = (math.inf, p_hi)
+    for n in (0.5, 1.0):
+        y = tl ** (1.0 / n)
+        slope, icept = np.polyfit(p, y, 1)
+        if slope >= 0.0:
+            continue
+        resid = float(np.sum((slope * p + icept - y) ** 2) / np.sum(y**2))
+        if resid < best[0]:
+            best = (resid, -icept / slope)
+    return float(min(max(best[1], p_lo), max(p_hi, p_lo * _P_STEP)))
