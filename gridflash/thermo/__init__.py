@@ -27,8 +27,8 @@ from ._miscibility import (
 from ._mixture import EOS_NAMES, Mixture
 from ._properties import (
     lbc_viscosity,
-    li_pseudocritical_temperature,
     phase_properties,
+    single_phase_label,
     stiel_thodos_viscosity,
     wilson_ln_k,
 )
@@ -73,7 +73,6 @@ __all__ = [
     "flash",
     "lbc_viscosity",
     "multi_contact_mmp",
-    "li_pseudocritical_temperature",
     "peneloux_shift",
     "phase_envelope",
     "phase_properties",
@@ -81,6 +80,7 @@ __all__ = [
     "pure_vapour_pressure",
     "rachford_rice",
     "saturation_pressure",
+    "single_phase_label",
     "reduced_parameters",
     "stability_test",
     "stiel_thodos_viscosity",
