@@ -1,8 +1,8 @@
 """Wall time and peak memory of whole ``gridflash run`` invocations (8 components, 1e6 cells).
 
-Run: ``python benchmarks/bench_runner.py [--quick] [--repeat N]``. For each case it starts
-``gridflash run`` as a subprocess with local worker threads (the default; or processes, or one
-worker), samples the resident memory (RSS) of the whole process tree (driver, workers,
+Run: ``python benchmarks/bench_runner.py [--quick] [--repeat N] [--memory]``. For each case it
+starts ``gridflash run`` as a subprocess with local worker threads (the default; or processes,
+or one worker), samples the resident memory (RSS) of the whole process tree (driver, workers,
 everything they start) every 50 ms, and prints wall time, cells/s and peak RSS; the all-workers
 and 1-worker cases, whose ratio is the scaling figure, are run ``--repeat`` times (default 3)
 and their medians printed. Baselines measured in this same process:
@@ -11,6 +11,10 @@ and their medians printed. Baselines measured in this same process:
   run's cells/s is printed as a ratio to ``cores x`` the kernel's rate;
 - memory: the same chunks on a grid 8x smaller, so the peak-RSS ratio shows whether memory
   follows the chunk size (ratio near 1) or the grid size (ratio near 8).
+
+``--memory`` runs only the memory-scaling check: 1e6 cells (100 x 100 x 100) and 1e7 cells
+(100 x 100 x 1000) with the default chunks, and prints both peak RSS figures and their ratio
+(near 1 when memory follows the chunk size, near 10 if it followed the grid size).
 
 The fluid is an invented 8-component volatile oil / CO2-rich gas (not field data). Also
 printed: mean iterations per cell warm vs cold on the bundled example
@@ -70,8 +74,8 @@ def run_case(folder: Path, shape, chunks: str, extra=()) -> dict:
     out, err = proc.communicate()
     if proc.returncode:
         raise SystemExit(f"gridflash run failed: {err}")
-    attrs = gridflash.store._writer.read_root_attrs(folder / "out.zarr")
-    rate = re.search(r"([\d,]+) cells/s", out)
+    attrs = gridflash.store.read_root_attrs(folder / "out.zarr")
+    rate = re.search(r"computing the chunks [\d.]+ s = ([\d,]+) cells/s", out)
     return {
         "wall": wall,
         "peak": peak,
@@ -122,7 +126,7 @@ def iterations_warm_vs_cold(folder: Path) -> tuple[float, float]:
             ],
             check=True,
         )
-        out[label] = gridflash.store._writer.read_root_attrs(store)["mean_iterations"]
+        out[label] = gridflash.store.read_root_attrs(store)["mean_iterations"]
     return out["warm"], out["cold"]
 
 
@@ -136,7 +140,12 @@ def main() -> None:
         metavar="N",
         help="runs of the all-workers and 1-worker cases (medians; default 3)",
     )
+    parser.add_argument("--memory", action="store_true",
+                        help="only the 1e6 vs 1e7-cell peak-RSS ratio")
     args = parser.parse_args()
+    if args.memory:
+        memory_scaling()
+        return
     cores = os.cpu_count() or 1
     big = (50, 50, 50) if args.quick else (100, 100, 100)
     small = (big[0], big[1] // 2, big[2] // 4)  # 8x fewer cells, same chunks
@@ -218,6 +227,20 @@ def main() -> None:
             f"\nconfigs/volatile_oil_co2.toml mean iterations per cell: warm {warm:.2f}, cold "
             f"{cold:.2f}, ratio cold/warm {cold / warm:.2f}"
         )
+
+
+def memory_scaling() -> None:
+    """Peak RSS of the whole run (driver, workers, saturation step) at 1e6 and 1e7 cells."""
+    shapes = {"1e6": (100, 100, 100), "1e7": (100, 100, 1000)}
+    peaks = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        for label, shape in shapes.items():
+            r = run_case(Path(tmp), shape, "")
+            peaks[label] = r["peak"]
+            print(f"{label} cells {shape}: chunks {r['chunks']} ({r['blocks']} blocks), wall "
+                  f"{r['wall']:.1f} s, peak RSS of the process tree {r['peak'] / 2**20:,.0f} MiB")
+    print(f"peak RSS ratio 1e7 / 1e6 cells: {peaks['1e7'] / peaks['1e6']:.2f} "
+          "(1 = bounded by the chunks; 10 = proportional to the grid)")
 
 
 if __name__ == "__main__":
