@@ -48,49 +48,54 @@ def interleaved(fns: dict[str, object], repeat: int = REPEAT) -> dict[str, float
 
 def kernel_grids() -> None:
     for nc in (8, 3):
-        mix = mixture(nc)
-        p, t, z = grid(nc, 100, 10, 21)
-        n = p.size
-        for cert in (True, False):
-            _flash_arrays(mix, p[:50], t[:50], z[:50], None, certify=cert)  # compile / warm-up
-        cert_r = _flash_arrays(mix, p, t, z, None, certify=True)
-        old_r = _flash_arrays(mix, p, t, z, None, certify=False)
-        model = mix.model
+        kernel_grid(nc)
 
-        def eos(model=model, p=p, t=t, z=z):
-            sa, b = reduced_parameters(model, p, t)
-            return sa, b, phase_state(model, z, sa, b).ln_phi
 
-        sa, b, lnphi = eos()
-        lnk = wilson_ln_k(model.tc, model.pc, model.omega, p, t)
-        times = interleaved({
-            "certified": lambda: _flash_arrays(mix, p, t, z, None, certify=True),
-            "uncertified": lambda: _flash_arrays(mix, p, t, z, None, certify=False),
-            "eos": eos,
-            "wilson": lambda: stability_test(model, sa, b, z, lnphi, lnk),
-            "properties": lambda: gridflash.thermo.phase_properties(mix, p, t, z, np.ones(n)),
-        })
-        tc, tu = times["certified"], times["uncertified"]
-        print(f"\n{nc} components, {n} cells: {np.mean(cert_r.phase_count == 2):.0%} two-phase, "
-              f"{np.mean(cert_r.phase_count == 3):.1%} three-phase, converged "
-              f"{cert_r.converged.mean():.4%} (uncertified path: {old_r.converged.mean():.4%})")
-        print(f"  certified   : {n / tc:10.0f} cells/s per core")
-        print(f"  uncertified : {n / tu:10.0f} cells/s per core")
-        print(f"  ratio certified / uncertified throughput: {tu / tc:.3f}")
-        same = np.array_equal(cert_r.phase_count, old_r.phase_count)
-        print(f"  same phase counts as uncertified: {same}; cells with certification trials: "
-              f"{np.mean(cert_r.certification_iterations > 0):.2%}; mean iterations "
-              f"{old_r.iterations.mean():.2f} -> {cert_r.iterations.mean():.2f}")
-        print("  cost split by stage (share of the certified flash's time):")
-        rest = tc - times["eos"] - times["wilson"] - 3 * times["properties"] - (tc - tu)
-        for label, d in (
-            ("EOS parameters + feed phase", times["eos"]),
-            ("Wilson stability trials", times["wilson"]),
-            ("phase properties (3 slots)", 3 * times["properties"]),
-            ("extended test + certification", tc - tu),
-            ("split and the rest", rest),
-        ):
-            print(f"    {label:32s}: {d / tc:6.1%}")
+def kernel_grid(nc: int) -> None:
+    """Certified vs uncertified on the nc-component kernel benchmark grid."""
+    mix = mixture(nc)
+    p, t, z = grid(nc, 100, 10, 21)
+    n = p.size
+    for cert in (True, False):
+        _flash_arrays(mix, p[:50], t[:50], z[:50], None, certify=cert)  # compile / warm-up
+    cert_r = _flash_arrays(mix, p, t, z, None, certify=True)
+    old_r = _flash_arrays(mix, p, t, z, None, certify=False)
+    model = mix.model
+
+    def eos():
+        sa, b = reduced_parameters(model, p, t)
+        return sa, b, phase_state(model, z, sa, b).ln_phi
+
+    sa, b, lnphi = eos()
+    lnk = wilson_ln_k(model.tc, model.pc, model.omega, p, t)
+    times = interleaved({
+        "certified": lambda: _flash_arrays(mix, p, t, z, None, certify=True),
+        "uncertified": lambda: _flash_arrays(mix, p, t, z, None, certify=False),
+        "eos": eos,
+        "wilson": lambda: stability_test(model, sa, b, z, lnphi, lnk),
+        "properties": lambda: gridflash.thermo.phase_properties(mix, p, t, z, np.ones(n)),
+    })
+    tc, tu = times["certified"], times["uncertified"]
+    print(f"\n{nc} components, {n} cells: {np.mean(cert_r.phase_count == 2):.0%} two-phase, "
+          f"{np.mean(cert_r.phase_count == 3):.1%} three-phase, converged "
+          f"{cert_r.converged.mean():.4%} (uncertified path: {old_r.converged.mean():.4%})")
+    print(f"  certified   : {n / tc:10.0f} cells/s per core")
+    print(f"  uncertified : {n / tu:10.0f} cells/s per core")
+    print(f"  ratio certified / uncertified throughput: {tu / tc:.3f}")
+    same = np.array_equal(cert_r.phase_count, old_r.phase_count)
+    print(f"  same phase counts as uncertified: {same}; cells with certification trials: "
+          f"{np.mean(cert_r.certification_iterations > 0):.2%}; mean iterations "
+          f"{old_r.iterations.mean():.2f} -> {cert_r.iterations.mean():.2f}")
+    print("  cost split by stage (share of the certified flash's time):")
+    rest = tc - times["eos"] - times["wilson"] - 3 * times["properties"] - (tc - tu)
+    for label, d in (
+        ("EOS parameters + feed phase", times["eos"]),
+        ("Wilson stability trials", times["wilson"]),
+        ("phase properties (3 slots)", 3 * times["properties"]),
+        ("extended test + certification", tc - tu),
+        ("split and the rest", rest),
+    ):
+        print(f"    {label:32s}: {d / tc:6.1%}")
 
 
 def example_grid() -> None:

@@ -24,7 +24,16 @@ from .codes import (
 from .eos import phase_cell, pure_ln_phi_cell, reduced_cell, wilson_ln_k_cell
 from .multiphase import multiphase_split_cell
 from .rachford_rice import MAX_PHASES
-from .split import GIBBS_TOL, NEWTON_WM, SPLIT_WS, evaluate_v, newton_cell, split_cell, xlogx
+from .split import (
+    GIBBS_TOL,
+    NEWTON_WM,
+    SPLIT_WS,
+    evaluate_v,
+    from_lnk,
+    newton_cell,
+    split_cell,
+    xlogx,
+)
 from .stability import (
     EXTENDED_WS,
     NEAR_PURE_REST,
@@ -352,19 +361,18 @@ def flash_batch(
             if st == CONVERGED and 0.0 < bt < 1.0:
                 n_phase = 2
                 from_split = True
-            elif certify and not use_k0:
+            elif certify:
                 # The split in vapour mole numbers loses precision where one phase holds almost
                 # none of a component (water and oil); the multiphase substitution, which
-                # computes each phase's composition directly, starts from the neighbour's phases.
-                prev = c - chain
-                fr[0] = 1.0 - beta[prev]
-                fr[1] = beta[prev]
-                for i in range(nc):
-                    comp[0, i] = x[prev, i]
-                    comp[1, i] = y[prev, i]
-                st_m, n_new, it_m, res_m, bal_m, g_m = multiphase_split_cell(
-                    zc, present, sqrt_a, b_i, omk, d1, d2, 2, comp, fr
-                )
+                # computes each phase's composition directly, starts from the warm K-values.
+                bt0, rr_ok = from_lnk(zc, present, lnk0, comp[0], comp[1], ws)
+                fr[0] = 1.0 - bt0
+                fr[1] = bt0
+                st_m, n_new, it_m, res_m, bal_m, g_m = ROOT_FAILURE, 0, 0, _NAN, _NAN, _NAN
+                if rr_ok and 0.0 < bt0 < 1.0:
+                    st_m, n_new, it_m, res_m, bal_m, g_m = multiphase_split_cell(
+                        zc, present, sqrt_a, b_i, omk, d1, d2, 2, comp, fr
+                    )
                 iterations[c] += it_m
                 if st_m == CONVERGED and n_new > 1:
                     n_phase = n_new
