@@ -489,8 +489,10 @@ def _format_summary(summary, spec) -> str:
         f"wrote {summary.output} (complete)",
         f"  {what}: {shape} = {summary.cells_total:,} cells in {summary.blocks_total} chunks",
         f"  chunks: {summary.blocks_computed} computed, {summary.blocks_reused} reused",
-        f"  cells: {stats.two_phase:,} two-phase, {stats.single_phase:,} single-phase, "
-        f"{stats.unconverged:,} unconverged",
+        f"  cells: {stats.three_phase:,} three-phase, {stats.two_phase:,} two-phase, "
+        f"{stats.single_phase:,} single-phase, {stats.unconverged:,} unconverged "
+        f"({stats.not_certified:,} not certified, {stats.three_phase_failed:,} three-phase "
+        "failed)",
         f"  iterations per cell: {_mean(attrs.get('mean_iterations'))} mean "
         f"(warm-started {_mean(attrs.get('mean_iterations_warm_start'))}, "
         f"cold {_mean(attrs.get('mean_iterations_cold_start'))})",
@@ -584,6 +586,7 @@ def _format_report(report, units: _Units) -> str:
 
     lines += [
         f"phase state ({report.cells_total:,} cells):",
+        f"  three-phase          {stats.three_phase:>12,}  {pct(stats.three_phase)}",
         f"  two-phase            {stats.two_phase:>12,}  {pct(stats.two_phase)}",
         f"  single, vapour-like  {report.vapour_like:>12,}  {pct(report.vapour_like)}",
         f"  single, liquid-like  {report.liquid_like:>12,}  {pct(report.liquid_like)}",

@@ -191,7 +191,7 @@ def compute_block(task: BlockTask) -> BlockSummary:
     mark_block_complete(path, task.block)
     stats = block_stats(
         result["phase_count"], result["converged"], result["iterations"],
-        result["stability_iterations"], result["warm_start"],
+        result["stability_iterations"], result["warm_start"], result["status"],
     )
     return BlockSummary(task.block, stats, time.perf_counter() - start)
 
