@@ -180,3 +180,59 @@ def classify(model: PlainPR, z, p, t, *, clear=1e-11, none=1e-14, extra_start=No
     dg = best - g_feed
     label = 2 if dg < -clear else (1 if dg > -none else 0)
     return label, dg
+
+
+def phase_moles(u, z):
+    """Mole numbers (n_phases, nc) from unconstrained variables u (n_phases - 1, nc): the feed
+    of each component is shared among the phases by a softmax (phase 0 has logit 0)."""
+    logits = np.vstack([np.zeros((1, z.size)), u])
+    logits -= logits.max(axis=0)
+    share = np.exp(logits)
+    share /= share.sum(axis=0)
+    return share * z
+
+
+def total_gibbs_phases(model: PlainPR, moles, p, t):
+    """Total Gibbs energy / RT (up to the pure-component terms) of phases given as mole numbers."""
+    out = 0.0
+    for n in moles:
+        tot = n.sum()
+        if tot <= 0.0:
+            continue
+        frac = n / tot
+        lnphi, _ = model.ln_phi(frac, p, t)
+        mask = n > 0
+        out += float(np.sum(n[mask] * (np.log(frac[mask]) + lnphi[mask])))
+    return out
+
+
+def minimise_gibbs_phases(model: PlainPR, z, p, t, starts):
+    """Lowest total Gibbs energy over splits into as many phases as each start has, by
+    scipy.optimize.minimize (L-BFGS-B, numerical gradients) from every start.
+
+    ``starts``: sequence of mole-number arrays (n_phases, nc) that sum to ``z`` over phases.
+    Returns (best_g, best_moles).
+    """
+    present = z > 0
+    zz = z[present]
+    best_g, best = math.inf, None
+    for start in starts:
+        start = np.clip(np.asarray(start, float)[:, present], 1e-300, None)
+        u0 = np.log(start[1:] / start[0]).ravel()
+        shape = (start.shape[0] - 1, zz.size)
+
+        def fun(u, shape=shape):
+            with np.errstate(all="ignore"):
+                g = total_gibbs_phases(model, phase_moles(u.reshape(shape), zz), p, t)
+            return g if np.isfinite(g) else 1e6
+
+        res = minimize(
+            fun, np.clip(u0, -60, 60), method="L-BFGS-B",
+            options={"ftol": 1e-16, "gtol": 1e-11, "maxiter": 5000, "maxfun": 100000},
+        )
+        if res.fun < best_g:
+            best_g = float(res.fun)
+            moles = np.zeros((shape[0] + 1, z.size))
+            moles[:, present] = phase_moles(res.x.reshape(shape), zz)
+            best = moles
+    return best_g, best

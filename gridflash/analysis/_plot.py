@@ -36,9 +36,9 @@ __all__ = [
 ]
 
 #: Fill colours of the phase states, indexed by ``phase_label`` (0 two-phase, 1 vapour-like,
-#: 2 liquid-like).
-PHASE_COLOURS: tuple[str, str, str] = ("#f2c14e", "#bfe3f0", "#7fb685")
-_PHASE_NAMES = ("two phases", "one phase, vapour-like", "one phase, liquid-like")
+#: 2 liquid-like, 3 three-phase).
+PHASE_COLOURS: tuple[str, ...] = ("#f2c14e", "#bfe3f0", "#7fb685", "#c8553d")
+_PHASE_NAMES = ("two phases", "one phase, vapour-like", "one phase, liquid-like", "three phases")
 _SATURATION_COLOUR = "#8c1c13"
 _CONTOUR_COLOUR = "#3b3b3b"
 _ABSENT_COLOUR = "#e6e6e6"
@@ -139,7 +139,7 @@ def phase_map(
     label = cut.data.phase_label.transpose(cut.y, cut.x).values.astype(float)
     label = np.ma.masked_less(label, 0.0)
     ax.pcolormesh(xs, ys, label, shading="nearest", cmap=ListedColormap(PHASE_COLOURS),
-                  vmin=-0.5, vmax=2.5)
+                  vmin=-0.5, vmax=len(PHASE_COLOURS) - 0.5)
     handles: list[Any] = [Patch(facecolor=c, edgecolor="#888888", label=n)
                           for c, n in zip(PHASE_COLOURS, _PHASE_NAMES, strict=True)]
     if contours:

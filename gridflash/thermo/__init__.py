@@ -24,7 +24,7 @@ from ._properties import (
     wilson_ln_k,
 )
 from ._rachford_rice import RachfordRiceResult, RachfordRiceStatus, rachford_rice
-from ._result import FlashResult, FlashStatus, PhaseLabel, PhaseProperties
+from ._result import FlashResult, FlashStatus, PhaseKind, PhaseLabel, PhaseProperties
 from ._saturation import pure_vapour_pressure, saturation_pressure
 from ._stability import StabilityResult, stability_test
 from ._volume_shift import peneloux_shift
@@ -44,6 +44,7 @@ __all__ = [
     "FlashResult",
     "FlashStatus",
     "Mixture",
+    "PhaseKind",
     "PhaseLabel",
     "PhaseProperties",
     "RachfordRiceResult",

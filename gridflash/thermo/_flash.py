@@ -9,7 +9,7 @@ from .._errors import InputError
 from . import kernels as _k
 from ._mixture import Mixture
 from ._properties import phase_properties, single_phase_label
-from ._result import FlashResult, FlashStatus, PhaseLabel
+from ._result import FlashResult, FlashStatus, PhaseKind, PhaseLabel
 
 __all__ = ["flash"]
 
@@ -25,7 +25,7 @@ def flash(
     *,
     k_init: ArrayLike | None = None,
 ) -> FlashResult:
-    """Isothermal two-phase flash of a batch of cells.
+    """Isothermal flash (up to three phases, every answer certified) of a batch of cells.
 
     Parameters
     ----------
@@ -39,9 +39,9 @@ def flash(
         Components may be exactly zero.
     k_init : array_like, shape (n, nc) or (nc,), optional
         Warm-start K-values, e.g. a neighbouring cell's converged answer. Rows containing NaN are
-        started cold. A warm-started split that converges to a non-trivial two-phase answer is
-        accepted without a stability test; otherwise the cell is solved exactly as without
-        ``k_init``.
+        started cold. A warm-started split that converges to a non-trivial two-phase answer
+        skips the feed's stability test but is certified like a cold one (see Notes);
+        otherwise the cell is solved exactly as without ``k_init``.
 
     Returns
     -------
@@ -65,8 +65,26 @@ def flash(
     (Michelsen & Mollerup 2007, ch. 10: a negative tangent-plane distance guarantees a
     lower-Gibbs split with a small amount of the trial phase). A converged split whose Gibbs
     energy exceeds the feed's by more than 1e-10 (per mole, over RT) is flagged. The vapour is
-    the phase of larger Z. A cell is ``converged`` when its fugacity residual is below 1e-10
-    and its material balance below 1e-12; otherwise its ``status`` says why.
+    the phase of larger Z.
+
+    Certification: a feed the two Wilson trials call stable gets the extended stability test
+    (pure-component corner screen and near-pure trial phases, see
+    :mod:`gridflash.thermo._stability`), and a converged split is tested the same way against
+    the tangent plane of its phases (at equilibrium every phase has the same one, so the first
+    phase's ``d_i = ln x_i + ln phi_i(x)`` stands for all). A trial phase with tangent-plane
+    distance below -1e-8 means the answer is a local minimum or misses a phase: the trial
+    phase is added and the split repeated by the multiphase substitution of Michelsen (1994)
+    with a Newton finish on the Gibbs energy (:mod:`gridflash.thermo.kernels.multiphase`),
+    which drops the phases not needed (so a wrong two-phase split becomes the right two-phase
+    split, or three phases), up to three rounds. A cell is ``converged`` (status 0) when its
+    fugacity residual is below 1e-10, its material balance below 1e-12 and its phases pass this
+    test; a split that fails it is flagged ``NOT_CERTIFIED`` (e.g. four phases would coexist;
+    at most three are computed) or ``THREE_PHASE_FAILED``, never stored as converged.
+
+    Phases: up to three. ``y``/``vapour_fraction`` hold the phase of largest Z, ``x`` the
+    liquid of larger Z, ``x2``/``second_liquid_fraction`` the liquid of smallest Z (water or a
+    CO2-rich liquid are denser in moles than an oil); ``liquid_kind``, ``vapour_kind`` and
+    ``second_liquid_kind`` say what each is (:class:`PhaseKind`).
 
     The computation of each cell is compiled (:mod:`gridflash.thermo.kernels`) and does not
     depend on the other cells of the batch.
@@ -99,7 +117,8 @@ def flash_slabs(
     the neighbour of cell ``j`` of the next (e.g. one pressure after another of a grid). With
     ``warm_start``, each cell after the first slab is started from the K-values of the same cell
     of the previous slab where that cell converged to two phases, exactly as :func:`flash` with
-    ``k_init`` would be called slab by slab, but in one compiled call. Other arguments and the
+    ``k_init`` would be called slab by slab, but in one compiled call; where that cell
+    converged to three phases, from its three phases. Other arguments and the
     result are those of :func:`flash`.
     """
     _check_mixture(mixture)
@@ -202,7 +221,12 @@ def _validate(mixture, pressure, temperature, z, k_init):
     return p, t, zz, k0
 
 
-def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
+def _flash_arrays(
+    mixture: Mixture, p, t, z, k0, chain: int = 0, *, certify: bool = True
+) -> FlashResult:
+    """The compiled flash of validated arrays. ``certify=False`` runs the path used before
+    certification existed (two Wilson trials, no test of the answer, at most two phases); it
+    exists only so that benchmarks can measure what certification costs."""
     n, nc = z.shape
     model = mixture.model
     status = np.empty(n, dtype=np.int8)
@@ -219,6 +243,10 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
     residual = np.empty(n)
     balance = np.empty(n)
     tpd = np.empty(n)
+    x2 = np.empty((n, nc))
+    beta2 = np.empty(n)
+    z_liq2 = np.empty(n)
+    cert_iters = np.empty(n, dtype=np.int32)
     use_k0 = k0 is not None
     _k.flash_batch(
         model.ac,
@@ -236,6 +264,8 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         np.ascontiguousarray(k0) if use_k0 else np.empty((1, nc)),
         use_k0,
         chain,
+        bool(certify),
+        _trial_gates(mixture),
         status,
         phase_count,
         beta,
@@ -250,11 +280,16 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         residual,
         balance,
         tpd,
+        x2,
+        beta2,
+        z_liq2,
+        cert_iters,
     )
 
     # Single-phase cells: labelled, and reported as the feed in the phase of their label.
     one = phase_count == 1
-    label = np.full(n, PhaseLabel.TWO_PHASE, dtype=np.int8)
+    label = np.where(phase_count == 3, PhaseLabel.THREE_PHASE, PhaseLabel.TWO_PHASE)
+    label = label.astype(np.int8)
     if one.any():
         label[one] = single_phase_label(mixture.tc, mixture.vc, z[one], t[one])
         vap_like = one & (label == PhaseLabel.VAPOUR_LIKE)
@@ -265,9 +300,11 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         x[liq_like] = z[liq_like]
         z_vap[vap_like] = z_feed[vap_like]
         z_liq[liq_like] = z_feed[liq_like]
+    kinds = _phase_kinds(mixture, t, x, y, x2)
 
     liquid = phase_properties(mixture, p, t, x, z_liq)
     vapour = phase_properties(mixture, p, t, y, z_vap)
+    second = phase_properties(mixture, p, t, x2, z_liq2)
     return FlashResult(
         phase_count=phase_count,
         vapour_fraction=beta,
@@ -284,4 +321,40 @@ def _flash_arrays(mixture: Mixture, p, t, z, k0, chain: int = 0) -> FlashResult:
         tpd=tpd,
         liquid=liquid,
         vapour=vapour,
+        second_liquid_fraction=beta2,
+        x2=x2,
+        liquid_kind=kinds[0],
+        vapour_kind=kinds[1],
+        second_liquid_kind=kinds[2],
+        certification_iterations=cert_iters,
+        second_liquid=second,
     )
+
+
+def _trial_gates(mixture: Mixture) -> NDArray[np.float64]:
+    """Corner tm below which each component gets a near-pure trial phase (see
+    :mod:`gridflash.thermo._stability`): every component in a mixture with water."""
+    water = "H2O" in mixture.names
+    return np.full(mixture.n_components, _k.WATER_GATE if water else _k.CORNER_GATE)
+
+
+def _phase_kinds(mixture: Mixture, t, x, y, x2) -> tuple[NDArray[np.int8], ...]:
+    """:class:`PhaseKind` of the liquid, vapour and second-liquid slots (see its docstring)."""
+    names = mixture.names
+
+    def share(comp, name):
+        return comp[:, names.index(name)] if name in names else np.zeros(comp.shape[0])
+
+    def liquid_kind(comp):
+        kind = np.full(comp.shape[0], PhaseKind.HYDROCARBON_LIQUID, dtype=np.int8)
+        kind[share(comp, "CO2") > 0.5] = PhaseKind.CO2_RICH_LIQUID
+        kind[share(comp, "H2O") > 0.5] = PhaseKind.AQUEOUS_LIQUID
+        kind[np.isnan(comp[:, 0])] = PhaseKind.ABSENT
+        return kind
+
+    vapour = liquid_kind(y)
+    there = ~np.isnan(y[:, 0])
+    if there.any():
+        like = single_phase_label(mixture.tc, mixture.vc, y[there], t[there])
+        vapour[np.flatnonzero(there)[like == PhaseLabel.VAPOUR_LIKE]] = PhaseKind.VAPOUR
+    return liquid_kind(x), vapour, liquid_kind(x2)

@@ -19,7 +19,35 @@ the Gibbs surface) and is concluded from the sign of ``tm`` there. A trial is st
 reaches a stationary point with ``tm >= -1e-10`` or approaches the feed itself
 (``sum (ln Ks)^2 < 1e-8`` with ``tm >= 0``); unstable as soon as ``tm < -1e-6`` (or at a
 stationary point with ``tm < -1e-10``). The compiled per-cell iteration is
-``kernels.stability.stability_trial``.
+``kernels.stability.stability_trial``; :func:`stability_test` runs these two trials.
+
+The extended test (used by :func:`gridflash.flash` on every feed the Wilson trials call stable,
+and to certify every converged answer) adds, against a reference phase ``r``:
+
+1. **The pure-component corner screen.** At ``W = e_i``, ``tm = ln phi_i^pure - ln r_i -
+   ln phi_i(r)``: one pure-component cubic per component and cell (shared by the feed and every
+   phase of that cell), so it costs almost nothing. A negative value proves instability
+   (Michelsen & Mollerup 2007, ch. 9: any point of negative tm does).
+2. **Near-pure trial phases** (Michelsen 1982, section 4; Michelsen & Mollerup 2007, ch. 9,
+   recommend pure-component initial estimates for liquid-liquid and water systems), started at
+   ``W_i = 0.999``, the rest in the reference's ratios, iterated as above to a stationary point
+   or to ``tm < -1e-8``, in increasing order of their corner tm, until one finds instability.
+   Which components get one: in a mixture that contains water, every component whose corner tm
+   is below 5 (water-rich and hydrocarbon-rich liquids are the phases the Wilson K-values, which
+   know nothing of polarity, miss; on H2O + C1 + nC10 cells such trials found instability with
+   corner tm up to 3.9); elsewhere, components whose corner tm is below 0.1 (on CO2 + C1 + C16
+   cells at 280-320 K the near-pure CO2 trial found the missed CO2-rich liquid with corner tm
+   0.02, and on hydrocarbon grids no near-pure trial found anything the Wilson trials had not).
+
+**What the test can still miss.** A stationary point of negative tm is found only if one of the
+trials reaches it: a phase whose composition is far from both Wilson estimates and from every
+pure component whose trial runs (outside water mixtures, a component with corner tm above
+0.1) goes unseen, for example a liquid-liquid split among hydrocarbons and CO2 in which neither
+liquid is nearly pure and the Wilson trials converge elsewhere, or a second, unusual phase in a
+mixture of custom (user-defined) components with strong interaction parameters. Trials stop at
+``tm < -1e-8``: a phase that lowers the Gibbs energy by less than that (per mole, over RT) is not
+reported. The gates above were chosen on the grids named there; they are heuristics, not
+guarantees.
 """
 
 from __future__ import annotations

@@ -8,9 +8,11 @@ are documented. A cell's arithmetic never depends on the other cells of its batc
 - :mod:`._policy` -- the jit decorator, the gas constant and the on-disk cache;
 - :mod:`.codes` -- status and outcome codes the kernels set;
 - :mod:`.eos` -- cubic EOS: roots, fugacity coefficients and derivatives (``_cubic.py``);
-- :mod:`.rachford_rice` -- Rachford-Rice inside its asymptote window (``_rachford_rice.py``);
+- :mod:`.rachford_rice` -- Rachford-Rice inside its asymptote window, and the multiphase
+  Rachford-Rice minimisation (``_rachford_rice.py``);
 - :mod:`.stability` -- tangent-plane-distance stability test (``_stability.py``);
 - :mod:`.split` -- two-phase split: substitution and Newton finish (documented here);
+- :mod:`.multiphase` -- split into up to three phases (documented here);
 - :mod:`.flash` -- the whole flash of a batch (``_flash.py``);
 - :mod:`.saturation` -- bubble/dew point by Newton's method (``_saturation.py``);
 - :mod:`.properties` -- phase properties (``_properties.py``).
@@ -24,6 +26,7 @@ from .codes import (
     GIBBS_INCREASE,
     MAX_ITERATIONS,
     NO_TWO_PHASE_ROOT,
+    NOT_CERTIFIED,
     ROOT_FAILURE,
     ROOT_LIQUID,
     ROOT_MIN_GIBBS,
@@ -34,6 +37,7 @@ from .codes import (
     RR_AT_UPPER_LIMIT,
     RR_CONVERGED,
     RR_MAX_ITERATIONS,
+    THREE_PHASE_FAILED,
     TRIVIAL_SOLUTION,
 )
 from .eos import cubic_roots_batch, dlnphi_batch, phase_batch, reduced_batch, wilson_batch
@@ -41,13 +45,22 @@ from .flash import flash_batch
 from .rachford_rice import RR_MAXITER, RR_TOL, rachford_rice_batch
 from .saturation import saturation_newton_batch
 from .split import TOL_BALANCE, TOL_RESIDUAL
-from .stability import STAB_MAXITER, STAB_TOL, stability_batch
+from .stability import (
+    CORNER_GATE,
+    STAB_MAXITER,
+    STAB_TOL,
+    TM_CERTIFY,
+    WATER_GATE,
+    stability_batch,
+)
 
 __all__ = [
     "CONVERGED",
+    "CORNER_GATE",
     "GIBBS_INCREASE",
     "MAX_ITERATIONS",
     "NO_TWO_PHASE_ROOT",
+    "NOT_CERTIFIED",
     "R",
     "ROOT_FAILURE",
     "ROOT_LIQUID",
@@ -64,8 +77,11 @@ __all__ = [
     "STAB_MAXITER",
     "STAB_TOL",
     "TOL_BALANCE",
+    "THREE_PHASE_FAILED",
+    "TM_CERTIFY",
     "TOL_RESIDUAL",
     "TRIVIAL_SOLUTION",
+    "WATER_GATE",
     "cubic_roots_batch",
     "dlnphi_batch",
     "flash_batch",

@@ -18,6 +18,8 @@ TRIVIAL_SOLUTION = 2
 ROOT_FAILURE = 3
 NO_TWO_PHASE_ROOT = 4
 GIBBS_INCREASE = 5
+NOT_CERTIFIED = 6
+THREE_PHASE_FAILED = 7
 
 # Rachford-Rice status codes (public as _rachford_rice.RachfordRiceStatus)
 RR_CONVERGED = 0

@@ -12,7 +12,7 @@ import math
 import numpy as np
 
 from ._policy import R, kernel
-from .codes import ROOT_LIQUID, ROOT_MIN_GIBBS, ROOT_VAPOUR
+from .codes import ROOT_LIQUID, ROOT_MIN_GIBBS
 
 _NAN = math.nan
 _INF = math.inf
@@ -95,6 +95,44 @@ def _logs(z, b, d1, d2):
 
 
 @kernel
+def _root(a, bm, d1, d2, root):
+    """The chosen root Z of the reduced cubic with ``ln(Z - B)``, the log term and
+    ``q = A / (B (d1 - d2))``; Z is NaN where there is no root above B."""
+    z_max, z_min, three = cubic_roots_cell(a, bm, d1, d2)
+    min_ok = three and z_min > bm
+    if root == ROOT_LIQUID and min_ok:
+        z = z_min
+    else:
+        z = z_max
+    q = a / (bm * (d1 - d2))
+    if not z > bm:
+        return _NAN, _NAN, _NAN, q
+    lz, log_term = _logs(z, bm, d1, d2)
+    if root == ROOT_MIN_GIBBS and min_ok:
+        # The root of lower Gibbs energy: G_dep / RT = Z - ln(Z - B) - q ln(...) (+ const).
+        lz_min, log_min = _logs(z_min, bm, d1, d2)
+        if z_min - lz_min - q * log_min < z_max - lz - q * log_term:
+            z = z_min
+            lz = lz_min
+            log_term = log_min
+    return z, lz, log_term, q
+
+
+@kernel
+def pure_ln_phi_cell(sqrt_a, b_i, omk, d1, d2, out):
+    """ln phi of each pure component at the cell's P and T (lowest-Gibbs root) into ``out``.
+
+    For a pure component ``A = A_i``, ``B = B_i`` and the mixture formula reduces to
+    ``ln phi = Z - 1 - ln(Z - B) - A / (B (d1 - d2)) ln((Z + d1 B) / (Z + d2 B))``; one cubic
+    per component, independent of the number of components. NaN where there is no root.
+    """
+    for i in range(b_i.shape[0]):
+        a = sqrt_a[i] * sqrt_a[i] * omk[i, i]
+        z, lz, log_term, q = _root(a, b_i[i], d1, d2, ROOT_MIN_GIBBS)
+        out[i] = z - 1.0 - lz - q * log_term
+
+
+@kernel
 def phase_cell(x, sqrt_a, b_i, omk, d1, d2, root, ln_phi, psi):
     """Z, A and B of a phase of composition ``x``; ln phi and psi written into the arrays.
 
@@ -118,27 +156,11 @@ def phase_cell(x, sqrt_a, b_i, omk, d1, d2, root, ln_phi, psi):
         for i in range(nc):
             ln_phi[i] = _NAN
         return _NAN, a, bm
-    z_max, z_min, three = cubic_roots_cell(a, bm, d1, d2)
-    min_ok = three and z_min > bm
-    if root == ROOT_VAPOUR:
-        z = z_max
-    elif root == ROOT_LIQUID:
-        z = z_min if min_ok else z_max
-    else:
-        z = z_max
+    z, lz, log_term, q = _root(a, bm, d1, d2, root)
     if not z > bm:
         for i in range(nc):
             ln_phi[i] = _NAN
         return _NAN, a, bm
-    lz, log_term = _logs(z, bm, d1, d2)
-    q = a / (bm * (d1 - d2))
-    if root == ROOT_MIN_GIBBS and min_ok:
-        # The root of lower Gibbs energy: G_dep / RT = Z - ln(Z - B) - q ln(...) (+ const).
-        lz_min, log_min = _logs(z_min, bm, d1, d2)
-        if z_min - lz_min - q * log_min < z_max - lz - q * log_term:
-            z = z_min
-            lz = lz_min
-            log_term = log_min
     coef = q * log_term
     for i in range(nc):
         br = b_i[i] / bm

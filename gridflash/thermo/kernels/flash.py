@@ -1,4 +1,5 @@
-"""The whole flash of a batch: stability test, split, Gibbs-descent fallback, warm starts.
+"""The whole flash of a batch: stability test, split, Gibbs-descent fallback, certification of
+the answer by a stability test of its phases, three-phase split, warm starts.
 
 The driver is documented in :mod:`gridflash.thermo._flash`.
 """
@@ -15,22 +16,38 @@ from .codes import (
     GIBBS_INCREASE,
     MAX_ITERATIONS,
     NO_TWO_PHASE_ROOT,
+    NOT_CERTIFIED,
     ROOT_FAILURE,
     ROOT_MIN_GIBBS,
+    THREE_PHASE_FAILED,
 )
-from .eos import phase_cell, reduced_cell, wilson_ln_k_cell
+from .eos import phase_cell, pure_ln_phi_cell, reduced_cell, wilson_ln_k_cell
+from .multiphase import multiphase_split_cell
+from .rachford_rice import MAX_PHASES
 from .split import GIBBS_TOL, NEWTON_WM, SPLIT_WS, evaluate_v, newton_cell, split_cell, xlogx
-from .stability import STAB_MAXITER, STAB_TOL, STABILITY_WS, TRIAL_WM, stability_cell
+from .stability import (
+    NEAR_PURE_REST,
+    NEAR_PURE_WS,
+    STAB_MAXITER,
+    STAB_TOL,
+    STABILITY_WS,
+    TM_CERTIFY,
+    TRIAL_WM,
+    corner_screen,
+    near_pure_trials,
+    stability_cell,
+)
 
 _NAN = math.nan
 _INF = math.inf
 
 # Scratch sizes (rows of nc, and (nc, nc) matrices).
-FLASH_WS = max(STABILITY_WS, SPLIT_WS)
+FLASH_WS = max(STABILITY_WS, SPLIT_WS, NEAR_PURE_WS)
 FLASH_WM = max(TRIAL_WM, NEWTON_WM)
 
 
 _DESCENT_FRACTIONS = (0.01, 0.05, 0.2, 0.4, 0.6, 0.8, 0.95)
+CERTIFY_ROUNDS = 3  # certification -> re-split rounds before a cell is flagged NOT_CERTIFIED
 
 
 @kernel
@@ -103,6 +120,87 @@ def _gibbs_descent_cell(
 
 
 @kernel
+def extended_test(
+    ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm
+):
+    """The pure-component corner screen, then near-pure trial phases, of the reference phase
+    ``ref``; returns (lowest tm, iterations). The lowest-tm composition is in ``w_out``."""
+    nc = ref.shape[0]
+    corner = np.empty(nc)
+    low, which = corner_screen(ref, present, ln_phi_ref, ln_phi_pure, corner)
+    tm, iters, _ = near_pure_trials(
+        ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, gate, w_out, ws, wm
+    )
+    if low < tm:
+        # The corner itself is the lowest tm seen; a trial phase with every component present
+        # stands for it where no trial was run.
+        tm = low
+        if not math.isfinite(w_out[0]):
+            for i in range(nc):
+                w_out[i] = 1.0 - NEAR_PURE_REST if i == which else NEAR_PURE_REST * ref[i]
+    return tm, iters
+
+
+@kernel
+def certify_phases(comp, present, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm):
+    """Stability test of a converged answer, with its first phase as the reference (at
+    equilibrium every phase has the same tangent plane); returns (lowest tm, iterations)."""
+    nc = comp.shape[1]
+    ln_phi = np.empty(nc)
+    psi = np.empty(nc)
+    zr, _, _ = phase_cell(comp[0], sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, ln_phi, psi)
+    if not math.isfinite(zr):
+        return _NAN, 0
+    return extended_test(
+        comp[0], present, ln_phi, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm
+    )
+
+
+@kernel
+def _write_phases(c, z, present, comp, beta, n_phase, sqrt_a, b_i, omk, d1, d2, out):
+    """Write a two- or three-phase answer held in ``comp``/``beta`` into row ``c`` of the
+    outputs: the vapour slot takes the phase of largest Z, the liquid slot the liquid of larger
+    Z and the second-liquid slot the other one."""
+    x, y, x2, beta_v, beta_2, ln_k, z_liq, z_vap, z_liq2 = out
+    nc = z.shape[0]
+    ln_phi = np.empty((MAX_PHASES, nc))
+    psi = np.empty(nc)
+    zf = np.empty(MAX_PHASES)
+    for k in range(n_phase):
+        zf[k], _, _ = phase_cell(comp[k], sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, ln_phi[k], psi)
+    v = 0
+    for k in range(1, n_phase):
+        if zf[k] > zf[v]:
+            v = k
+    lq = -1
+    l2 = -1
+    for k in range(n_phase):
+        if k != v:
+            if lq < 0:
+                lq = k
+            elif zf[k] > zf[lq]:
+                l2 = lq
+                lq = k
+            else:
+                l2 = k
+    beta_v[c] = beta[v]
+    z_vap[c] = zf[v]
+    z_liq[c] = zf[lq]
+    for i in range(nc):
+        x[c, i] = comp[lq, i]
+        y[c, i] = comp[v, i]
+        if present[i]:
+            ln_k[c, i] = math.log(comp[v, i] / comp[lq, i])
+        else:
+            ln_k[c, i] = ln_phi[lq, i] - ln_phi[v, i]
+    if l2 >= 0:
+        beta_2[c] = beta[l2]
+        z_liq2[c] = zf[l2]
+        for i in range(nc):
+            x2[c, i] = comp[l2, i]
+
+
+@kernel
 def flash_batch(
     ac,
     m,
@@ -119,6 +217,8 @@ def flash_batch(
     k0,
     use_k0,
     chain,
+    certify,
+    gate,
     status,
     phase_count,
     beta,
@@ -133,17 +233,26 @@ def flash_batch(
     residual,
     balance,
     tpd,
+    x2,
+    beta2,
+    z_liq2,
+    cert_iters,
 ):
     """Flash every cell; fills the output arrays (see _flash._flash_arrays).
 
     Warm starts: with ``use_k0``, from the rows of ``k0`` without NaN; else with ``chain > 0``,
-    cell ``c`` from the ln K of cell ``c - chain`` where that cell converged to two phases.
+    cell ``c`` from the answer of cell ``c - chain`` where that cell converged to two or three
+    phases. With ``certify`` False the cell is solved the way it was before certification
+    existed (two Wilson trials, no test of the answer, at most two phases): kept only to
+    measure the cost of certification. ``gate`` (nc,): the corner tm below which a component
+    gets a near-pure trial phase.
     """
     n, nc = z.shape
     sqrt_a = np.empty(nc)
     b_i = np.empty(nc)
     present = np.empty(nc, dtype=np.bool_)
     lnphi_z = np.empty(nc)
+    lnphi_pure = np.empty(nc)
     psi = np.empty(nc)
     ln_kw = np.empty(nc)
     lnk0 = np.empty(nc)
@@ -153,8 +262,14 @@ def flash_batch(
     sx = np.empty(nc)
     sy = np.empty(nc)
     slnk = np.empty(nc)
+    w_trial = np.empty(nc)
+    comp = np.empty((MAX_PHASES, nc))
+    fr = np.empty(MAX_PHASES)
+    saved = np.empty((MAX_PHASES, nc))
+    saved_fr = np.empty(MAX_PHASES)
     ws = np.empty((FLASH_WS, nc))
     wm = np.empty((FLASH_WM, nc, nc))
+    out = (x, y, x2, beta, beta2, ln_k, z_liq, z_vap, z_liq2)
     for c in range(n):
         zc = z[c]
         reduced_cell(ac, m, b, tc, p[c], t[c], sqrt_a, b_i)
@@ -165,16 +280,20 @@ def flash_batch(
         status[c] = CONVERGED
         phase_count[c] = 1
         beta[c] = _NAN
+        beta2[c] = 0.0
         z_liq[c] = _NAN
         z_vap[c] = _NAN
+        z_liq2[c] = _NAN
         iterations[c] = 0
         stab_iters[c] = 0
+        cert_iters[c] = 0
         residual[c] = 0.0
         balance[c] = 0.0
         tpd[c] = _NAN
         for i in range(nc):
             x[c, i] = _NAN
             y[c, i] = _NAN
+            x2[c, i] = _NAN
             ln_k[c, i] = _NAN
         feed_ok = math.isfinite(zf)
         for i in range(nc):
@@ -183,8 +302,11 @@ def flash_batch(
         if not feed_ok:
             status[c] = ROOT_FAILURE
             continue
-        g_split = _NAN
-        done = False
+        if certify:
+            pure_ln_phi_cell(sqrt_a, b_i, omk, d1, d2, lnphi_pure)
+        st, bt, zl, zv, res, bal, g = CONVERGED, _NAN, _NAN, _NAN, _NAN, _NAN, _NAN
+        n_phase = 0  # phases of a converged answer held in comp / fr (0: none yet)
+        from_split = False  # the answer is the two-phase split's (sx, sy, slnk)
         warm = False
         if use_k0:
             warm = True
@@ -201,14 +323,31 @@ def flash_batch(
                 lnk0[i] = ln_k[prev, i]
                 if not math.isfinite(lnk0[i]):
                     warm = False
-        if warm:
+            if status[prev] == CONVERGED and phase_count[prev] == 3:
+                fr[0] = 1.0 - beta[prev] - beta2[prev]
+                fr[1] = beta[prev]
+                fr[2] = beta2[prev]
+                for i in range(nc):
+                    comp[0, i] = x[prev, i]
+                    comp[1, i] = y[prev, i]
+                    comp[2, i] = x2[prev, i]
+                st, n_new, it, res, bal, g = multiphase_split_cell(
+                    zc, present, sqrt_a, b_i, omk, d1, d2, 3, comp, fr
+                )
+                iterations[c] += it
+                if st == CONVERGED and n_new > 1:
+                    n_phase = n_new
+                    residual[c] = res
+                    balance[c] = bal
+        if warm and n_phase == 0:
             st, bt, zl, zv, it, res, bal, g = split_cell(
                 zc, present, sqrt_a, b_i, omk, d1, d2, lnk0, True, sx, sy, slnk, ws, wm
             )
             iterations[c] += it
             if st == CONVERGED and 0.0 < bt < 1.0:
-                done = True
-        if not done:
+                n_phase = 2
+                from_split = True
+        if n_phase == 0:
             for i in range(nc):
                 ln_kw[i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p[c], t[c])
             stable, tpd_c, st_it, conclusive, root_failure = stability_cell(
@@ -233,6 +372,29 @@ def flash_batch(
             stab_iters[c] = st_it
             iterations[c] += st_it
             tpd[c] = tpd_c
+            if stable and conclusive and certify:
+                tm_e, e_it = extended_test(
+                    zc,
+                    present,
+                    lnphi_z,
+                    sqrt_a,
+                    b_i,
+                    omk,
+                    d1,
+                    d2,
+                    lnphi_pure,
+                    gate,
+                    w_trial,
+                    ws,
+                    wm,
+                )
+                stab_iters[c] += e_it
+                iterations[c] += e_it
+                if tm_e < TM_CERTIFY:
+                    stable = False
+                    tpd[c] = tm_e
+                    for i in range(nc):
+                        seed[i] = math.log(w_trial[i] / zc[i]) if present[i] else 0.0
             if stable:
                 if not conclusive:
                     status[c] = ROOT_FAILURE if root_failure else MAX_ITERATIONS
@@ -257,28 +419,125 @@ def flash_batch(
                         slnk[i] = flnk[i]
                 elif st == CONVERGED:
                     st = NO_TWO_PHASE_ROOT
-        # Two-phase answer (converged or flagged).
-        phase_count[c] = 2
-        status[c] = st
-        residual[c] = res
-        balance[c] = bal
-        g_split = g
-        g_feed = xlogx(zc, lnphi_z, present)
-        if st == CONVERGED and g_split > g_feed + GIBBS_TOL:
-            status[c] = GIBBS_INCREASE
-        if zv < zl:  # the vapour is the phase of larger Z
-            beta[c] = 1.0 - bt
-            z_liq[c] = zv
-            z_vap[c] = zl
+            if st == CONVERGED:
+                n_phase = 2
+                from_split = True
+            elif certify:
+                # Both two-phase routes failed: split into the two Wilson trial phases and the
+                # lowest near-pure trial phase, and let the substitution drop what is not needed.
+                tm_e, e_it = extended_test(
+                    zc,
+                    present,
+                    lnphi_z,
+                    sqrt_a,
+                    b_i,
+                    omk,
+                    d1,
+                    d2,
+                    lnphi_pure,
+                    gate,
+                    w_trial,
+                    ws,
+                    wm,
+                )
+                n_try = 3 if tm_e < TM_CERTIFY else 2
+                for i in range(nc):
+                    comp[0, i] = trials[0, i]
+                    comp[1, i] = trials[1, i]
+                    comp[2, i] = w_trial[i]
+                for k in range(MAX_PHASES):
+                    fr[k] = 1.0 / n_try
+                st_m, n_new, it_m, res_m, bal_m, g_m = multiphase_split_cell(
+                    zc, present, sqrt_a, b_i, omk, d1, d2, n_try, comp, fr
+                )
+                cert_iters[c] += e_it + it_m
+                iterations[c] += e_it + it_m
+                if st_m == CONVERGED and n_new > 1:
+                    n_phase = n_new
+                    residual[c] = res_m
+                    balance[c] = bal_m
+                    g = g_m
+        if from_split:
+            fr[0] = 1.0 - bt
+            fr[1] = bt
             for i in range(nc):
-                x[c, i] = sy[i]
-                y[c, i] = sx[i]
-                ln_k[c, i] = -slnk[i]
+                comp[0, i] = sx[i]
+                comp[1, i] = sy[i]
+            residual[c] = res
+            balance[c] = bal
+        st_final = st if n_phase == 0 else CONVERGED
+        if certify and n_phase > 0:
+            certified = False
+            for _ in range(CERTIFY_ROUNDS):
+                tm_c, c_it = certify_phases(
+                    comp, present, sqrt_a, b_i, omk, d1, d2, lnphi_pure, gate, w_trial, ws, wm
+                )
+                cert_iters[c] += c_it
+                iterations[c] += c_it
+                if not tm_c < TM_CERTIFY:
+                    certified = not math.isnan(tm_c)
+                    break
+                if n_phase == MAX_PHASES:
+                    break
+                # Add the trial phase and split again: the substitution removes a phase that is
+                # not needed, so this also reaches a lower-Gibbs two-phase answer.
+                for k in range(n_phase):
+                    saved_fr[k] = fr[k]
+                    for i in range(nc):
+                        saved[k, i] = comp[k, i]
+                n_old = n_phase
+                for i in range(nc):
+                    comp[n_phase, i] = w_trial[i]
+                fr[n_phase] = 0.0
+                st_m, n_new, it_m, res_m, bal_m, g_m = multiphase_split_cell(
+                    zc, present, sqrt_a, b_i, omk, d1, d2, n_phase + 1, comp, fr
+                )
+                cert_iters[c] += it_m
+                iterations[c] += it_m
+                if st_m != CONVERGED or n_new < 2:
+                    n_phase = n_old
+                    for k in range(n_phase):
+                        fr[k] = saved_fr[k]
+                        for i in range(nc):
+                            comp[k, i] = saved[k, i]
+                    st_final = THREE_PHASE_FAILED
+                    break
+                n_phase = n_new
+                from_split = False
+                residual[c] = res_m
+                balance[c] = bal_m
+                g = g_m
+            if st_final == CONVERGED and not certified:
+                st_final = NOT_CERTIFIED
+        if n_phase == 0:
+            # A two-phase answer that did not converge (flagged), as the split left it.
+            n_phase = 2
+            from_split = True
+            residual[c] = res
+            balance[c] = bal
+            fr[0] = 1.0 - bt
+            fr[1] = bt
+        phase_count[c] = n_phase
+        status[c] = st_final
+        if from_split:
+            if zv < zl:  # the vapour is the phase of larger Z
+                beta[c] = 1.0 - bt
+                z_liq[c] = zv
+                z_vap[c] = zl
+                for i in range(nc):
+                    x[c, i] = sy[i]
+                    y[c, i] = sx[i]
+                    ln_k[c, i] = -slnk[i]
+            else:
+                beta[c] = bt
+                z_liq[c] = zl
+                z_vap[c] = zv
+                for i in range(nc):
+                    x[c, i] = sx[i]
+                    y[c, i] = sy[i]
+                    ln_k[c, i] = slnk[i]
         else:
-            beta[c] = bt
-            z_liq[c] = zl
-            z_vap[c] = zv
-            for i in range(nc):
-                x[c, i] = sx[i]
-                y[c, i] = sy[i]
-                ln_k[c, i] = slnk[i]
+            _write_phases(c, zc, present, comp, fr, n_phase, sqrt_a, b_i, omk, d1, d2, out)
+        g_feed = xlogx(zc, lnphi_z, present)
+        if status[c] == CONVERGED and g > g_feed + GIBBS_TOL:
+            status[c] = GIBBS_INCREASE

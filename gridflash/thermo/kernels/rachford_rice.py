@@ -18,6 +18,7 @@ from .codes import (
     RR_CONVERGED,
     RR_MAX_ITERATIONS,
 )
+from .eos import solve_cell
 
 _NAN = math.nan
 _INF = math.inf
@@ -142,3 +143,136 @@ def rachford_rice_batch(
         beta[c], status[c], iters[c], residual[c] = rachford_rice_cell(
             k[c], z[c], has_limits, lim_lo, lim_hi, tol, maxiter, work
         )
+
+
+# Multiphase Rachford-Rice (Michelsen 1994), at most MAX_PHASES phases.
+MAX_PHASES = 3
+MRR_TOL = 1e-13  # max |dQ / d beta_k| over the phases present at the minimum
+MRR_MAXITER = 100
+MRR_MAX_HALVINGS = 30
+
+
+@kernel
+def _mrr_q(z, present, theta, beta, n_phase, e):
+    """Q(beta) of the multiphase Rachford-Rice minimisation; E_i written into ``e``."""
+    q = 0.0
+    for k in range(n_phase):
+        q += beta[k]
+    for i in range(z.shape[0]):
+        if present[i]:
+            s = 0.0
+            for k in range(n_phase):
+                s += beta[k] * theta[k, i]
+            e[i] = s
+            q -= z[i] * math.log(s)
+    return q
+
+
+@kernel
+def multiphase_rachford_rice_cell(z, present, ln_phi, n_phase, beta, tol, maxiter, ws):
+    """Phase fractions of one cell from fugacity coefficients; returns (converged, iterations).
+
+    ``ln_phi`` (MAX_PHASES, nc): ln phi of each phase (rows below ``n_phase``); ``beta``
+    (MAX_PHASES,): initial fractions in, the minimiser out (>= 0, some > 0). ``ws``: scratch of
+    MAX_PHASES + 1 rows of nc. The method is documented in ``_rachford_rice.py``.
+    """
+    nc = z.shape[0]
+    theta = ws[:MAX_PHASES]
+    e = ws[MAX_PHASES]
+    g = np.empty(MAX_PHASES)
+    h = np.empty((MAX_PHASES, MAX_PHASES))
+    hf = np.empty((MAX_PHASES, MAX_PHASES))
+    rhs = np.empty(MAX_PHASES)
+    d = np.empty(MAX_PHASES)
+    free = np.empty(MAX_PHASES, dtype=np.int64)
+    trial = np.empty(MAX_PHASES)
+    # theta_ki = phi_ri / phi_ki with r the phase of least ln phi_i: scaling row i of theta by a
+    # constant leaves the gradient and the minimiser unchanged and keeps theta in (0, 1].
+    for i in range(nc):
+        if present[i]:
+            low = ln_phi[0, i]
+            for k in range(1, n_phase):
+                low = min(low, ln_phi[k, i])
+            for k in range(n_phase):
+                theta[k, i] = math.exp(low - ln_phi[k, i])
+    total = 0.0
+    for k in range(n_phase):
+        beta[k] = max(beta[k], 0.0)
+        total += beta[k]
+    if not total > 0.0:
+        for k in range(n_phase):
+            beta[k] = 1.0 / n_phase
+    q = _mrr_q(z, present, theta, beta, n_phase, e)
+    for it in range(1, maxiter + 1):
+        for k in range(n_phase):
+            s = 0.0
+            for i in range(nc):
+                if present[i]:
+                    s += z[i] * theta[k, i] / e[i]
+            g[k] = 1.0 - s
+            for m in range(k, n_phase):
+                s = 0.0
+                for i in range(nc):
+                    if present[i]:
+                        s += z[i] * theta[k, i] * theta[m, i] / (e[i] * e[i])
+                h[k, m] = s
+                h[m, k] = s
+        # Karush-Kuhn-Tucker: a phase at zero stays there while its gradient is non-negative.
+        nf = 0
+        worst = 0.0
+        for k in range(n_phase):
+            if beta[k] > 0.0 or g[k] < 0.0:
+                free[nf] = k
+                nf += 1
+                worst = max(worst, abs(g[k]))
+        if worst < tol:
+            return True, it
+        # Newton direction on the free phases; a phase at zero that the direction would make
+        # negative is held at zero and the direction solved again without it.
+        while True:
+            for a in range(nf):
+                rhs[a] = -g[free[a]]
+                for b in range(nf):
+                    hf[a, b] = h[free[a], free[b]]
+            if not solve_cell(hf[:nf, :nf], rhs[:nf], d[:nf]):
+                return False, it
+            held = -1
+            for a in range(nf):
+                if beta[free[a]] <= 0.0 and d[a] < 0.0:
+                    held = a
+            if held < 0:
+                break
+            for a in range(held, nf - 1):
+                free[a] = free[a + 1]
+            nf -= 1
+            if nf == 0:
+                return worst < 1e3 * tol, it
+        # Longest step keeping every fraction non-negative (the phase that limits it leaves),
+        # then halved while Q rises.
+        step = 1.0
+        limit = -1
+        for a in range(nf):
+            if d[a] < 0.0 and -beta[free[a]] / d[a] < step:
+                step = -beta[free[a]] / d[a]
+                limit = free[a]
+        accepted = False
+        for _ in range(MRR_MAX_HALVINGS):
+            for k in range(n_phase):
+                trial[k] = beta[k]
+            for a in range(nf):
+                trial[free[a]] = max(beta[free[a]] + step * d[a], 0.0)
+            if limit >= 0:
+                trial[limit] = 0.0
+            q_new = _mrr_q(z, present, theta, trial, n_phase, e)
+            if math.isfinite(q_new) and q_new <= q + 1e-15 * abs(q):
+                accepted = True
+                break
+            step *= 0.5
+            limit = -1
+        if not accepted:
+            _mrr_q(z, present, theta, beta, n_phase, e)
+            return worst < 1e3 * tol, it
+        for k in range(n_phase):
+            beta[k] = trial[k]
+        q = q_new
+    return False, maxiter

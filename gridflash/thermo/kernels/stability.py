@@ -55,7 +55,21 @@ def _gdem(x_new, x_cur, x_prev, present, everywhere, out):
 
 @kernel
 def stability_trial(
-    z, present, ln_phi_z, sqrt_a, b_i, omk, d1, d2, ks0, tol, maxiter, early_exit, ks_out, ws, wm
+    z,
+    present,
+    ln_phi_z,
+    sqrt_a,
+    b_i,
+    omk,
+    d1,
+    d2,
+    ks0,
+    tol,
+    maxiter,
+    early_exit,
+    ks_out,
+    ws,
+    wm,
 ):
     """Iterate one trial phase (ln Ks = ln W - ln z) to a conclusion.
 
@@ -304,3 +318,99 @@ def stability_batch(
             trials[1, c, i] = tr[1, i]
         trial_tm[0, c] = tt[0]
         trial_tm[1, c] = tt[1]
+
+
+# Extended test: pure-component corners and near-pure trial phases (see _stability.py).
+TM_CERTIFY = -1e-8  # a trial phase with tm below this fails the certification of an answer
+CORNER_GATE = 0.1  # near-pure trial of component i where tm at its corner is below this ...
+WATER_GATE = 5.0  # ... or below this in a mixture that contains water
+NEAR_PURE_REST = 1e-3  # the other components' share of a near-pure start (in the feed's ratios)
+TRIAL_STATIONARY = 1e-7  # stationarity of a near-pure trial that ends at tm >= TM_CERTIFY
+NEAR_PURE_WS = 2 + TRIAL_WS
+
+
+@kernel
+def corner_screen(ref, present, ln_phi_ref, ln_phi_pure, corner):
+    """tm at every pure-component corner into ``corner``; returns (lowest tm, its component).
+
+    With ``W = e_i`` the modified tangent-plane distance is ``tm = ln phi_i^pure - d_i``
+    (``d_i = ln ref_i + ln phi_i(ref)``): one pure-component EOS value per component, already
+    at hand. Components absent from ``ref`` get +inf (their ``d_i`` is -inf).
+    """
+    low = _INF
+    which = -1
+    for i in range(ref.shape[0]):
+        corner[i] = _INF
+        if present[i]:
+            corner[i] = ln_phi_pure[i] - math.log(ref[i]) - ln_phi_ref[i]
+            if not math.isfinite(corner[i]):
+                corner[i] = _INF
+            elif corner[i] < low:
+                low = corner[i]
+                which = i
+    return low, which
+
+
+@kernel
+def near_pure_trials(
+    ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, gate, w_out, ws, wm
+):
+    """Trial phases started near each pure component whose corner tm is below its ``gate``
+    (nc,), in increasing order of that tm, until one reaches tm < TM_CERTIFY.
+
+    Returns (lowest tm, iterations, tried): the composition of the lowest-tm trial is written
+    into ``w_out`` (NaN if none was tried). ``ws``: NEAR_PURE_WS rows of nc; ``wm``: TRIAL_WM
+    (nc, nc) matrices.
+    """
+    nc = ref.shape[0]
+    ks0 = ws[0]
+    ks = ws[1]
+    tws = ws[2:]
+    low = _INF
+    iters = 0
+    tried = 0
+    for i in range(nc):
+        w_out[i] = _NAN
+    done = np.zeros(nc, dtype=np.bool_)
+    while True:
+        pick = -1
+        for i in range(nc):
+            if present[i] and not done[i] and corner[i] < gate[i]:
+                if pick < 0 or corner[i] < corner[pick]:
+                    pick = i
+        if pick < 0:
+            break
+        done[pick] = True
+        tried += 1
+        for j in range(nc):
+            share = 1.0 - NEAR_PURE_REST if j == pick else NEAR_PURE_REST * ref[j]
+            ks0[j] = math.log(share / ref[j]) if present[j] else 0.0
+        _, tm, it = stability_trial(
+            ref,
+            present,
+            ln_phi_ref,
+            sqrt_a,
+            b_i,
+            omk,
+            d1,
+            d2,
+            ks0,
+            TRIAL_STATIONARY,
+            STAB_MAXITER,
+            True,
+            ks,
+            tws,
+            wm,
+        )
+        iters += it
+        if math.isfinite(tm) and tm < low:
+            low = tm
+            s = 0.0
+            for j in range(nc):
+                w_out[j] = ref[j] * math.exp(ks[j]) if present[j] else 0.0
+                s += w_out[j]
+            for j in range(nc):
+                w_out[j] /= s
+        if low < TM_CERTIFY:
+            break
+    return low, iters, tried
