@@ -20,6 +20,10 @@ their medians printed. Ratios printed, each against a baseline measured in this 
 - memory: the same chunks on a grid 8x smaller, so the peak-RSS ratio shows whether memory
   follows the chunk size (ratio near 1) or the grid size (ratio near 8).
 
+``--memory`` runs only the memory-scaling check: 1e6 cells (100 x 100 x 100) and 1e7 cells
+(100 x 100 x 1000) with the default chunks, and prints both peak RSS figures and their ratio
+(near 1 when memory follows the chunk size, near 10 if it followed the grid size).
+
 The machine is shared: absolute times are noisy (the load average is printed after each run),
 ratios within one run of this script much less so. The fluid is an invented 8-component
 volatile oil / CO2-rich gas (not field data). Also printed: mean iterations per cell warm vs
@@ -217,7 +221,12 @@ def main() -> None:
         help="runs of the threads, processes, cluster and 1-worker cases (medians; default 3)",
     )
     parser.add_argument("--no-large", action="store_true", help="skip the 1e7-cell run")
+    parser.add_argument("--memory", action="store_true",
+                        help="only the memory-scaling check (1e6 and 1e7 cells, peak RSS)")
     args = parser.parse_args()
+    if args.memory:
+        memory_scaling()
+        return
     cores = os.cpu_count() or 1
     big = (50, 50, 50) if args.quick else (100, 100, 100)
     large = (108, 108, 107) if args.quick else (215, 215, 216)  # ~10x the cells of big
@@ -314,6 +323,20 @@ def main() -> None:
             f"\nconfigs/volatile_oil_co2.toml mean iterations per cell: warm {warm:.2f}, cold "
             f"{cold:.2f}, ratio cold/warm {cold / warm:.2f}"
         )
+
+
+def memory_scaling() -> None:
+    """Peak RSS of the whole run (driver, workers, saturation step) at 1e6 and 1e7 cells."""
+    shapes = {"1e6": (100, 100, 100), "1e7": (100, 100, 1000)}
+    peaks = {}
+    with tempfile.TemporaryDirectory() as tmp:
+        for label, shape in shapes.items():
+            r = run_case(Path(tmp), shape, "")
+            peaks[label] = r["peak"]
+            print(f"{label} cells {shape}: chunks {r['chunks']} ({r['blocks']} blocks), wall "
+                  f"{r['wall']:.1f} s, peak RSS of the process tree {r['peak'] / 2**20:,.0f} MiB")
+    print(f"peak RSS ratio 1e7 / 1e6 cells: {peaks['1e7'] / peaks['1e6']:.2f} "
+          "(1 = bounded by the chunks; 10 = proportional to the grid)")
 
 
 if __name__ == "__main__":

@@ -34,7 +34,7 @@ See docs/running.md for clusters and resuming.
 
 _EPILOG_INSPECT = """\b
 Examples:
-  gridflash inspect configs/volatile_oil_co2.zarr
+  gridflash inspect out/volatile_oil_co2.zarr
   gridflash inspect out.zarr --list 50
 """
 
@@ -62,7 +62,7 @@ def cli() -> None:
     \b
     Examples:
       gridflash run configs/volatile_oil_co2.toml
-      gridflash inspect configs/volatile_oil_co2.zarr
+      gridflash inspect out/volatile_oil_co2.zarr
       gridflash run --help
     """
 
@@ -206,14 +206,18 @@ def characterise_command(config: Path, toml_out: Path | None) -> None:
 
 _EPILOG_PLOT = """\b
 Examples:
-  gridflash plot configs/volatile_oil_co2.zarr --at mixing_ratio=0.3
+  gridflash plot out/volatile_oil_co2.zarr --at mixing_ratio=0.3
   gridflash plot out.zarr --x mixing_ratio --y pressure --at temperature=80degC --out figs
   gridflash plot out.zarr --x mixing_ratio --y temperature --at pressure=150bar --kind phase
   gridflash plot out.zarr --pressure-unit MPa --temperature-unit K
+  gridflash plot simplex.zarr --kind ternary --at pressure=150bar --at temperature=80degC
 
 \b
-Pressures and temperatures in --at need a unit (bar, MPa, psia, degC, K, degF, ...); the
-nearest grid value is used. Axes left out of --at are fixed at their first value.
+Pressures and temperatures in --at need a unit (bar, MPa, psia, degC, K, degF, ...). A value
+between grid nodes is interpolated; a value outside the table is an error. Axes left out of
+--at are fixed at their first value. Maps are drawn from the table's fields looked up at a fine
+set of points (exact flashes next to phase boundaries), within the table's extent. A ternary
+view (three-stream simplex tables) fixes pressure and temperature and ignores --x/--y.
 Needs matplotlib: pip install 'gridflash[plot]'.
 """
 
@@ -229,7 +233,8 @@ Needs matplotlib: pip install 'gridflash[plot]'.
 @click.option("--out", "out_dir", type=click.Path(file_okay=False, path_type=Path),
               metavar="DIR", help="Folder for the PNG files (default: STORE_plots beside it).")
 @click.option("--kind", "kinds", multiple=True, type=click.Choice(["phase", "density",
-              "viscosity"]), help="Figures to draw (repeatable; default all three).")
+              "viscosity", "ternary"]),
+              help="Figures to draw (repeatable; default phase, density and viscosity).")
 @click.option("--pressure-unit", default="bar", show_default=True, metavar="UNIT",
               help="Pressure unit on the axes: bar, MPa, kPa, psia, atm, Pa.")
 @click.option("--temperature-unit", default="degC", show_default=True, metavar="UNIT",
@@ -241,24 +246,16 @@ def plot_command(store: Path, x_axis: str, y_axis: str, at_items: tuple[str, ...
                  temperature_unit: str, dpi: int) -> None:
     """Write PNG pictures of the table STORE: a phase map and density/viscosity maps.
 
-    The phase map colours two-phase, vapour-like and liquid-like cells, draws the saturation
-    line where pressure is an axis, and contours the vapour fraction.
+    The phase map colours two-phase, vapour-like and liquid-like states, draws the phase
+    boundary and the stored saturation pressures, and contours the vapour fraction.
     """
-    import numpy as np
-
-    from .analysis._plot import _matplotlib, parse_at, plot_table
+    from .analysis import parse_at, plot_table
+    from .analysis._plot import _matplotlib
     from .store import open_table
 
     _matplotlib()  # fail in one line before reading anything if matplotlib is missing
     table = open_table(store)
     at = parse_at(table, at_items)
-    for dim, value in at.items():
-        nodes = np.asarray(table[dim].values, dtype=float)
-        nearest = float(nodes[np.argmin(np.abs(nodes - value))])
-        if not np.isclose(nearest, value, rtol=1e-9, atol=0.0):
-            units = str(table[dim].attrs.get("units", "")).replace("1", "")
-            click.echo(f"note: {dim} {value:g} is not a grid value; using the nearest, "
-                       f"{nearest:g} {units}".rstrip())
     folder = out_dir if out_dir is not None else store.parent / f"{store.stem}_plots"
     written = plot_table(table, x=x_axis, y=y_axis, at=at, out=folder,
                          kinds=kinds or ("phase", "density", "viscosity"),
@@ -293,7 +290,7 @@ def saturation_command(store: Path) -> None:
 
 _EPILOG_EXPORT = """\b
 Examples:
-  gridflash export configs/training_samples.zarr --out samples.parquet
+  gridflash export out/training_samples.zarr --out samples.parquet
   gridflash export table.zarr --out table.nc --split 0.7,0.15,0.15 --converged-only
   gridflash export table.zarr --out table.csv
 

@@ -103,6 +103,7 @@ def medium(tmp_path_factory):
     return config, folder / "reference.zarr"
 
 
+@pytest.mark.slow
 def test_existing_cluster_equals_local_run(medium, tmp_path):
     config, reference = medium
     with dask_cluster(tmp_path) as (address, _):
@@ -111,6 +112,7 @@ def test_existing_cluster_equals_local_run(medium, tmp_path):
     assert_stores_identical(reference, tmp_path / "remote.zarr")
 
 
+@pytest.mark.slow
 def test_worker_killed_mid_run(medium, tmp_path):
     """SIGKILL one of two workers while blocks run: dask reschedules, the store is identical."""
     config, reference = medium
@@ -135,6 +137,7 @@ def test_worker_killed_mid_run(medium, tmp_path):
     assert_stores_identical(reference, store)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize(("seed", "kind"), [(0, "--threads"), (1, "--threads"), (2, "--processes")])
 def test_killed_run_resumes(medium, tmp_path, seed, kind):
     """SIGKILL ``gridflash run`` at a random point, then ``--resume``: identical store, and no

@@ -171,6 +171,7 @@ def test_split_depends_only_on_the_cell():
     assert np.array_equal(split_of(p * (1 + 1e-15), t, z), labels)
 
 
+@pytest.mark.slow
 def test_same_cell_same_split_after_rechunking(grid_store, tmp_path):
     other = load_config(write_config(tmp_path, chunks="pressure = 2, temperature = 3, "
                                                       "composition = 2", output="other.zarr"))
@@ -343,6 +344,7 @@ def test_cli_csv_export_equals_parquet(grid_store, tmp_path, name, extra):
     assert again.exit_code == 1 and "already exists" in again.stderr
 
 
+@pytest.mark.slow
 def test_cli_run_and_export_a_sampling_config(tmp_path):
     """End to end in a subprocess: run a sampling config, export it, read it back."""
     config = write_sample_config(tmp_path, points=32, chunk=16)

@@ -261,7 +261,6 @@ def condensate(tmp_path_factory) -> xr.Dataset:
     from pathlib import Path
 
     text = (Path(__file__).resolve().parents[1] / "configs" / "gas_condensate.toml").read_text()
-    text = text.replace('scheduler = "processes"', 'scheduler = "threads"')
     return gridflash.open_table(build_store(tmp_path_factory, "condensate", text)).load()
 
 

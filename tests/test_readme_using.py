@@ -9,6 +9,7 @@ from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
+import pytest
 
 import gridflash
 from gridflash.config._parser import load_config
@@ -29,7 +30,7 @@ def test_readme_using_a_table_example_runs(tmp_path, monkeypatch):
     """Build the quick start's store (the bundled invented example) where the README expects
     it, then execute the README block and check what it computed."""
     config = load_config(ROOT / "configs" / "volatile_oil_co2.toml")
-    target = tmp_path / "configs" / "volatile_oil_co2.zarr"
+    target = tmp_path / "out" / "volatile_oil_co2.zarr"
     run(replace(config, run=replace(config.run, output=target)))
     monkeypatch.chdir(tmp_path)
     namespace: dict = {}
@@ -53,3 +54,40 @@ def test_readme_using_a_table_example_runs(tmp_path, monkeypatch):
     for j, value in enumerate(bubble):
         k = np.flatnonzero(count[:, j] == 2).max()
         assert p[k] < value < p[k + 1]
+
+
+def _quick_start_commands() -> list[list[str]]:
+    """The gridflash commands of the README's quick start (the first shell block)."""
+    text = (ROOT / "README.md").read_text()
+    section = text.split("## Quick start", 1)[1].split("\n## ", 1)[0]
+    block = re.findall(r"```\n(.*?)```", section, flags=re.S)[0]
+    commands = [c.strip().split() for c in block.strip().split("&&")]
+    return [c for c in commands if c[0] == "gridflash"]
+
+
+@pytest.mark.slow
+def test_quick_start_writes_to_out_not_configs(tmp_path):
+    """The README's quick start, run as written (through ``python -m gridflash.cli``) from a
+    copy of the repository's folder layout: the store lands in out/, configs/ is left as it
+    was, and inspect shows the config's units."""
+    import os
+    import shutil
+    import subprocess
+    import sys
+
+    shutil.copytree(ROOT / "configs", tmp_path / "configs")
+    before = sorted(p.name for p in (tmp_path / "configs").iterdir())
+    commands = _quick_start_commands()
+    assert [c[:2] for c in commands] == [["gridflash", "run"], ["gridflash", "inspect"]]
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join(sys.path)}
+    outputs = []
+    for command in commands:
+        done = subprocess.run([sys.executable, "-m", "gridflash.cli", *command[1:]],
+                              cwd=tmp_path, capture_output=True, text=True, timeout=300, env=env)
+        assert done.returncode == 0, done.stderr
+        outputs.append(done.stdout)
+    assert (tmp_path / "out" / "volatile_oil_co2.zarr" / "zarr.json").is_file()
+    assert sorted(p.name for p in (tmp_path / "configs").iterdir()) == before
+    assert f"wrote {tmp_path / 'out' / 'volatile_oil_co2.zarr'} (complete)" in outputs[0]
+    assert re.search(r"pressure\s+\d+ points\s+50 \.\. 430 bar", outputs[1])
+    assert re.search(r"temperature\s+\d+ points\s+60 \.\. 120 degC", outputs[1])

@@ -119,6 +119,7 @@ def test_warm_cold_and_chunking_invariance(reference, tmp_path):
         assert_same_phase_split(base, other)
 
 
+@pytest.mark.slow
 def test_threads_vs_processes(reference, tmp_path):
     _, path = reference
     other = _run_variant(tmp_path, scheduler="processes")

@@ -359,3 +359,25 @@ def test_what_a_component_accepts_the_store_rebuilds(tc, pc, omega, mw, zra):
              "kij": json.dumps(np.zeros((2, 2)).tolist())}
     rebuilt = gridflash.mixture_from_store(attrs)
     assert rebuilt.components[1].tc == tc and rebuilt.components[1].pc == pc
+
+
+def test_creating_a_huge_store_is_metadata_only(tmp_path):
+    """A 6e9-cell grid (every axis count within its limit): the creation template holds one
+    lazy chunk per variable -- its size does not grow with the grid, unlike a task per zarr
+    chunk (gigabytes of graph) -- while the zarr chunks written are the plan's."""
+    from gridflash.store._schema import template
+
+    spec = load_config(write_config(tmp_path, chunks="", grid={
+        "p_start": 20.0, "p_stop": 270.0, "p_count": 60_000, "t_count": 1000, "c_count": 100}))
+    plan = chunk_plan(spec)
+    assert plan.n_cells == 6_000_000_000 and plan.n_blocks > 90_000
+    ds, encoding = template(spec, plan)
+    for var in VARIABLES:
+        assert ds[var.name].data.npartitions == 1, var.name
+        assert encoding[var.name]["chunks"][:3] == plan.chunks
+    assert ds["block_complete"].data.npartitions == 1
+    create_store(tmp_path / "huge.zarr", spec, plan)
+    group = zarr.open_group(str(tmp_path / "huge.zarr"), mode="r")
+    assert group["phase_count"].shape == (60_000, 1000, 100)
+    assert group["phase_count"].chunks == plan.chunks
+    assert not any((tmp_path / "huge.zarr" / "phase_count").glob("c/*"))  # no chunk written

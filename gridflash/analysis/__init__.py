@@ -31,6 +31,7 @@ from ._plot import (
     phase_map,
     plot_table,
     property_map,
+    ternary_map,
 )
 from ._saturation_lines import (
     SATURATION_VARIABLES,
@@ -62,4 +63,5 @@ __all__ = [
     "saturation_lines",
     "split_of",
     "split_unit",
+    "ternary_map",
 ]

@@ -56,6 +56,9 @@ _END_STEP = 1e-3
 #: Factor and number of steps by which a one-phase bracket end is raised when it is not.
 _RAISE_FACTOR = 1.25
 _MIN_LINES_PER_THREAD = 64  # below this, one thread (thread start-up would dominate)
+#: Most lines solved in one call: a call flashes two cells per line at once, with every
+#: intermediate array, so this bounds the step's memory on tables of any size.
+_MAX_LINES_PER_CALL = 4096
 _RAISE_STEPS = 20
 _INV_PHI = (np.sqrt(5.0) - 1.0) / 2.0
 
@@ -314,25 +317,27 @@ def _saturation_at(
 
 
 def _saturation_threads(mixture, temperature, z, p_two, p_one, threads, known=None):
-    """:func:`saturation_pressure` in ``threads`` threads (default one per core): the lines are
-    cut into one slice per thread (the compiled flash releases the GIL). Each line's answer is
-    independent of the others, so the result is the same as one call. ``known``: brackets the
-    table's flash already gave (``brackets_known``)."""
+    """:func:`saturation_pressure` in ``threads`` threads (default one per core), on slices of
+    at most ``_MAX_LINES_PER_CALL`` lines (the compiled flash releases the GIL), so memory is
+    bounded by the slice, not by the table. Each line's answer is independent of the others, so
+    the result is the same as one call. ``known``: brackets the table's flash already gave
+    (``brackets_known``)."""
     n = temperature.shape[0]
     known = np.zeros(n, dtype=bool) if known is None else known
     parts = min(threads or os.cpu_count() or 1, max(1, n // _MIN_LINES_PER_THREAD))
-    if parts <= 1:
-        p_sat, kind, _ = saturation_pressure(mixture, temperature, z, p_two, p_one, rtol=_RTOL,
-                                             brackets_known=known)
-        return p_sat, kind
-    bounds = np.linspace(0, n, parts + 1).astype(int)
+    pieces = max(parts, -(-n // _MAX_LINES_PER_CALL))
+    bounds = np.linspace(0, n, pieces + 1).astype(int)
     slices = [slice(a, b) for a, b in zip(bounds[:-1], bounds[1:], strict=True)]
-    with ThreadPoolExecutor(max_workers=parts) as pool:
-        out = list(pool.map(
-            lambda s: saturation_pressure(mixture, temperature[s], z[s], p_two[s], p_one[s],
-                                          rtol=_RTOL, brackets_known=known[s])[:2],
-            slices,
-        ))
+
+    def solve(s: slice):
+        return saturation_pressure(mixture, temperature[s], z[s], p_two[s], p_one[s],
+                                   rtol=_RTOL, brackets_known=known[s])[:2]
+
+    if parts <= 1:
+        out = [solve(s) for s in slices]
+    else:
+        with ThreadPoolExecutor(max_workers=parts) as pool:
+            out = list(pool.map(solve, slices))
     return np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out])
 
 

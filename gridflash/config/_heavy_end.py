@@ -218,16 +218,16 @@ def parse_heavy_end(
             if k.strip().lower() == comp.name.lower():
                 v = as_float(val, f"{skey}.{k}", "a mole fraction")
         light_pairs.append((comp, v / scale))
-    scn = tuple(
-        ScnFraction(
-            m["carbon_number"],
-            frac(f"C{m['carbon_number']}") / scale,
-            mw=m.get("molar_mass"),
-            sg=m.get("specific_gravity"),
-        )
-        for m in measured
-    )
     try:
+        scn = tuple(
+            ScnFraction(
+                m["carbon_number"],
+                frac(f"C{m['carbon_number']}") / scale,
+                mw=m.get("molar_mass"),
+                sg=m.get("specific_gravity"),
+            )
+            for m in measured
+        )
         analysis = FluidAnalysis(
             light=tuple(light_pairs),
             plus=PlusFraction(n_plus, frac(name.strip()) / scale, mw=mw, sg=sg),

@@ -959,7 +959,8 @@ class _Parser:
         output = Path(output).expanduser()
         if not output.is_absolute():
             base = self.base_dir if self.base_dir is not None else Path.cwd()
-            output = base.absolute() / output
+            # lexically normalised, so "../out/x.zarr" is shown as ".../out/x.zarr"
+            output = Path(os.path.normpath(base.absolute() / output))
         if self.sampling is not None:
             sweep_dim, chunks = self._sample_run(table)
         else:
