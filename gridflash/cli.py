@@ -495,6 +495,10 @@ def _format_summary(summary, spec) -> str:
         f"(warm-started {_mean(attrs.get('mean_iterations_warm_start'))}, "
         f"cold {_mean(attrs.get('mean_iterations_cold_start'))})",
     ]
+    zero = spec.fluid.zero_default_pairs
+    if zero:
+        lines.append(f"  kij left at zero (no default value; set them in fluid.kij): "
+                     f"{', '.join(zero)}")
     if summary.blocks_computed:
         overall = summary.cells_computed / summary.wall_time if summary.wall_time > 0 else 0.0
         lines.append(

@@ -20,10 +20,13 @@ from .conftest import mixing_line
 
 
 def _fugacity_residual(mix, p, t, x, y):
+    # Components absent from both phases (zero in the feed) have no fugacity to compare.
     sa, b = reduced_parameters(mix.model, p, t)
-    lf_l = np.log(x) + phase_state(mix.model, x, sa, b).ln_phi
-    lf_v = np.log(y) + phase_state(mix.model, y, sa, b).ln_phi
-    return np.max(np.abs(lf_v - lf_l), axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lf_l = np.log(x) + phase_state(mix.model, x, sa, b).ln_phi
+        lf_v = np.log(y) + phase_state(mix.model, y, sa, b).ln_phi
+        diff = np.where((x > 0) | (y > 0), np.abs(lf_v - lf_l), 0.0)
+    return np.max(diff, axis=1)
 
 
 def _gibbs(mix, p, t, comp):

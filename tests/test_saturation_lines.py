@@ -278,3 +278,15 @@ def test_refusals(tmp_path):
     (tmp_path / "x.zarr").mkdir()
     result = CliRunner().invoke(cli, ["saturation", str(tmp_path / "x.zarr")])
     assert result.exit_code == 1 and "not a gridflash store" in result.output
+
+
+def test_lines_solved_in_bounded_slices_equal_one_call(binary, monkeypatch):
+    """Memory of the post-step is bounded by solving the lines in slices (at most
+    _MAX_LINES_PER_CALL per call) -- here slices of 7 lines: the answers are the same."""
+    import gridflash.analysis._saturation_lines as module
+
+    whole = gridflash.saturation_lines(binary, threads=1)
+    monkeypatch.setattr(module, "_MAX_LINES_PER_CALL", 7)
+    sliced = gridflash.saturation_lines(binary, threads=1)
+    for name in whole.data_vars:
+        np.testing.assert_array_equal(sliced[name].values, whole[name].values, err_msg=name)

@@ -36,7 +36,8 @@ def co2_c16_mixture() -> Mixture:
 
 
 def water_mixture() -> Mixture:
-    return Mixture(["H2O", "C1", "nC10"])
+    # kij = 0 for every pair, as the cases below state (not the default water-hydrocarbon 0.485)
+    return Mixture(["H2O", "C1", "nC10"], kij="zero")
 
 
 def plain(mix: Mixture) -> PlainPR:
@@ -322,8 +323,11 @@ def test_property_water_cells_certified(p, t, w, c1):
     chained = flash_slabs(mix, [p * 0.97, p], t, np.stack([z, z]), 1)
     assert chained.phase_count[1] == r.phase_count[1]
     assert chained.status[1] == r.status[1]
-    assert chained.vapour_fraction[1] == pytest.approx(r.vapour_fraction[1], abs=1e-8)
-    assert chained.second_liquid_fraction[1] == pytest.approx(r.second_liquid_fraction[1], abs=1e-8)
+    # (NaN second-liquid fraction where a cell has fewer than three phases: equal as NaN)
+    assert chained.vapour_fraction[1] == pytest.approx(r.vapour_fraction[1], abs=1e-8,
+                                                       nan_ok=True)
+    assert chained.second_liquid_fraction[1] == pytest.approx(r.second_liquid_fraction[1],
+                                                              abs=1e-8, nan_ok=True)
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])

@@ -269,8 +269,8 @@ def _columns(ds: xr.Dataset, dims: tuple[str, ...]) -> list[tuple[Column, str, s
     add("phase_count", "label", "1", "number of phases at equilibrium (1 or 2)", "phase_count")
     labels = ds.phase_label.attrs
     add("phase_label", "label", "1",
-        f"phase state code: {_codes(labels)} (single phases labelled by Li's mixture "
-        "pseudo-critical temperature)", "phase_label")
+        f"phase state code: {_codes(labels)} (single phases labelled by the "
+        "phase-identification parameter)", "phase_label")
     add("vapour_fraction", "label", "1",
         "vapour mole fraction (moles of vapour per mole of feed); 1 for a single vapour-like "
         "phase, 0 for a single liquid-like phase", "vapour_fraction")

@@ -44,6 +44,7 @@ import numpy as np
 
 from .._errors import ConfigError, InputError
 from ..thermo import EOS_NAMES, Component, Mixture, builtin_component, builtin_names
+from ..thermo._mixture import KIJ_MAX, KIJ_MIN, KIJ_ZERO_REQUESTED, KIJ_ZERO_SPELLINGS, pair_key
 from ._checks import (
     as_bool,
     as_float,
@@ -329,18 +330,33 @@ class _Parser:
         self.components = tuple(components)
         self.names = tuple(c.name for c in components)
         self.written = tuple(written)
-        kij, canon_kij = self._kij(table.get("kij"))
+        given, canon_kij = self._kij(table.get("kij"))
+        pairs = {(self.names[i], self.names[j]): v for (i, j), v in given.items()}
+        origin = dict.fromkeys(pairs, "fluid.kij")
         if self.heavy is not None:
-            given = {tuple(pair.split("-", 1)) for pair in canon_kij}
             for (a, b), value in self.heavy.fluid.kij.items():
-                if (a, b) in given or (b, a) in given:
+                if (a, b) in pairs or (b, a) in pairs:
                     continue  # a pair given in fluid.kij takes precedence
-                i, j = self.names.index(a), self.names.index(b)
-                kij[i, j] = kij[j, i] = value
+                pairs[(a, b)] = value
+                origin[(a, b)] = "heavy-end characterisation"
         try:
-            Mixture(self.components, eos=eos, kij=kij)  # type: ignore[arg-type]
+            if canon_kij == KIJ_ZERO_SPELLINGS[0]:
+                # No default table; the characterisation's pairs still apply.
+                kij = np.zeros((len(self.names),) * 2)
+                for (a, b), value in pairs.items():
+                    i, j = self.names.index(a), self.names.index(b)
+                    kij[i, j] = kij[j, i] = value
+                mixture = Mixture(self.components, eos=eos, kij=kij)  # type: ignore[arg-type]
+                sources = dict.fromkeys(mixture.kij_sources, KIJ_ZERO_REQUESTED)
+            else:
+                mixture = Mixture(self.components, eos=eos, kij=pairs)  # type: ignore[arg-type]
+                sources = dict(mixture.kij_sources)
         except InputError as exc:
             raise ConfigError(f"fluid: {exc}") from None
+        for (a, b), where in origin.items():
+            key = pair_key(a, b) if pair_key(a, b) in sources else pair_key(b, a)
+            sources[key] = where
+        kij = mixture.kij
         self.canonical["fluid"] = {"eos": eos, "components": canon_components, "kij": canon_kij}
         if self.heavy is not None:
             self.canonical["fluid"]["heavy_end"] = self.heavy.canonical
@@ -348,6 +364,7 @@ class _Parser:
             components=self.components,
             eos=eos,
             kij=tuple(map(tuple, kij.tolist())),
+            kij_sources=tuple(sources.items()),
             provenance=self.heavy.provenance() if self.heavy is not None else (),
         )
 
@@ -458,13 +475,18 @@ class _Parser:
             f"one of {', '.join(self.names)}"
         )
 
-    def _kij(self, value: object) -> tuple[np.ndarray, dict[str, float]]:
-        nc = len(self.names)
-        matrix = np.zeros((nc, nc))
+    def _kij(self, value: object) -> tuple[dict[tuple[int, int], float], Any]:
+        """The pairs a config gives ``{(i, j): kij}`` and their canonical form.
+
+        ``kij = "zero"`` gives no pairs and the canonical form ``"zero"`` (no default table).
+        """
         seen: dict[tuple[int, int], str] = {}
+        given: dict[tuple[int, int], float] = {}
         pairs: list[tuple[str, object, object, object]] = []  # key, name_a, name_b, value
         if value is None:
             pass
+        elif isinstance(value, str) and value.strip().lower() in KIJ_ZERO_SPELLINGS:
+            return given, KIJ_ZERO_SPELLINGS[0]
         elif isinstance(value, dict):
             for pair, v in value.items():
                 key = join_key("fluid.kij", pair)
@@ -484,8 +506,8 @@ class _Parser:
             bad(
                 "fluid.kij",
                 value,
-                'is neither a table of pairs ("CO2-C1" = 0.12) nor a list of pairs '
-                '([["CO2", "C1", 0.12]])',
+                'is neither a table of pairs ("CO2-C1" = 0.12), a list of pairs '
+                '([["CO2", "C1", 0.12]]) nor "zero" (every pair zero, no default table)',
             )
         for key, a, b, v in pairs:
             idx = []
@@ -502,9 +524,10 @@ class _Parser:
                     f"pairs {self.names[i]!r} with itself; kij of a component with "
                     "itself is always 0, give pairs of two different components",
                 )
-            k = as_float(v, key, "a binary interaction parameter with |kij| < 1")
-            if abs(k) >= 1.0:
-                bad(key, v, "is out of range; binary interaction parameters need |kij| < 1")
+            k = as_float(v, key, "a binary interaction parameter in [-0.5, 1)")
+            if not KIJ_MIN <= k < KIJ_MAX:
+                bad(key, v, f"is out of range; binary interaction parameters need "
+                    f"{KIJ_MIN:g} <= kij < {KIJ_MAX:g}")
             pair_id = (min(i, j), max(i, j))
             if pair_id in seen:
                 bad(
@@ -513,9 +536,9 @@ class _Parser:
                     f"gives the pair again (already given by {seen[pair_id]}); give each pair once",
                 )
             seen[pair_id] = key
-            matrix[i, j] = matrix[j, i] = k
-        canon = {f"{self.names[i]}-{self.names[j]}": float(matrix[i, j]) for (i, j) in sorted(seen)}
-        return matrix, canon
+            given[pair_id] = k
+        canon = {f"{self.names[i]}-{self.names[j]}": given[(i, j)] for (i, j) in sorted(seen)}
+        return given, canon
 
     def _split_pair(self, pair: str, key: str) -> tuple[str, str]:
         found: set[tuple[int, int]] = set()

@@ -13,6 +13,7 @@ import numpy as np
 
 from .._types import SchedulerKind
 from ..thermo import Component, Mixture
+from ..thermo._mixture import KIJ_ZERO_NO_DEFAULT
 
 #: The scrambled low-discrepancy sequences a sampling run may use.
 SEQUENCES: tuple[str, ...] = ("sobol", "halton")
@@ -35,6 +36,10 @@ class FluidSpec:
     components: tuple[Component, ...]
     eos: str
     kij: tuple[tuple[float, ...], ...]
+    #: Where each pair's kij came from, as ("A-B", source) in component order: a source key of
+    #: the default table (see ``gridflash.thermo._interaction_data``), "fluid.kij",
+    #: "heavy-end characterisation" or a "zero: ..." label.
+    kij_sources: tuple[tuple[str, str], ...] = ()
     #: Methods behind derived components (e.g. a characterised plus-fraction), as (key, text).
     provenance: tuple[tuple[str, str], ...] = ()
 
@@ -44,6 +49,11 @@ class FluidSpec:
     @property
     def names(self) -> tuple[str, ...]:
         return tuple(c.name for c in self.components)
+
+    @property
+    def zero_default_pairs(self) -> tuple[str, ...]:
+        """Pairs with CO2, N2, H2S or H2O left at zero for want of a default value."""
+        return tuple(pair for pair, source in self.kij_sources if source == KIJ_ZERO_NO_DEFAULT)
 
 
 @dataclass(frozen=True)

@@ -29,6 +29,7 @@ from .._version import __version__
 from ..config import RunSpec
 from ..plan import ChunkPlan
 from ..thermo import FlashStatus, PhaseLabel
+from ..thermo._interaction_data import REFERENCES as KIJ_REFERENCES
 
 __all__ = [
     "BLOCK_COMPLETE",
@@ -127,7 +128,7 @@ VARIABLES: tuple[Variable, ...] = (
     *_phase_variables("vapour"),
     Variable("phase_label", "phase_label", "int8", -1, False, {
         "units": "1", "long_name": "phase state: two-phase, or the kind of single phase "
-        "(Li mixture pseudo-critical temperature rule)", **_flags(PhaseLabel),
+        "(phase-identification parameter of Venkatarathnam & Oellrich 2011)", **_flags(PhaseLabel),
         "comment": "-1 where the cell has not been computed"}),
     Variable("converged", "converged", "bool", False, False, {
         "units": "1", "long_name": "cell converged (fugacity residual < 1e-10 and material "
@@ -189,6 +190,10 @@ def root_attrs(spec: RunSpec, plan: ChunkPlan) -> dict[str, Any]:
         "eos": spec.fluid.eos,
         "components": json.dumps(_component_records(spec)),
         "kij": json.dumps([list(row) for row in spec.fluid.kij]),
+        "kij_sources": json.dumps({
+            "pairs": dict(spec.fluid.kij_sources),
+            "references": dict(KIJ_REFERENCES),
+        }),
         "fluid_provenance": json.dumps(dict(spec.fluid.provenance)),
         "sweep": plan.sweep,
         "warm_start": int(spec.run.warm_start),

@@ -18,8 +18,8 @@ from ._flash import flash
 from ._mixture import EOS_NAMES, Mixture
 from ._properties import (
     lbc_viscosity,
-    li_pseudocritical_temperature,
     phase_properties,
+    single_phase_label,
     stiel_thodos_viscosity,
     wilson_ln_k,
 )
@@ -55,13 +55,13 @@ __all__ = [
     "cubic_roots",
     "flash",
     "lbc_viscosity",
-    "li_pseudocritical_temperature",
     "peneloux_shift",
     "phase_properties",
     "phase_state",
     "pure_vapour_pressure",
     "rachford_rice",
     "saturation_pressure",
+    "single_phase_label",
     "reduced_parameters",
     "stability_test",
     "stiel_thodos_viscosity",

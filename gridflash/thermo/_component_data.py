@@ -9,9 +9,12 @@ Properties of Gases and Liquids*, 5th ed., McGraw-Hill, 2001, Appendix A, Sectio
 transcribed from memory of that table; the test suite checks each one against the ``chemicals``
 package's critical-property databases, see ``tests/test_components.py``).
 
-Rackett compressibility ``zra`` is not tabulated here: when a component gives none it is estimated
-by the Yamada-Gunn correlation (see ``_components.py``). The volume-shift parameter is derived
-from it by Peneloux's rule for the equation of state in use (see ``_volume_shift.py``).
+Volume shift: ``LIQUID_DENSITY`` gives each built-in component's published saturated-liquid
+molar density at one reduced temperature (``T = Tr tc`` with ``tc`` of ``_ROWS``); the Peneloux
+shift of a built-in component is chosen so that the equation of state in use reproduces it (see
+``_volume_shift.py``). Rackett compressibility ``zra`` is not tabulated here: for other
+components it is estimated by the Yamada-Gunn correlation (see ``_components.py``) and the shift
+derived from it by Peneloux's rule.
 """
 
 from __future__ import annotations
@@ -40,3 +43,36 @@ _ROWS: tuple[tuple[str, str, tuple[str, ...], float, float, float, float, float]
     ("n-nonane", "nC9", ("nonane",), 594.60, 22.90, 0.445, 128.258, 555.00),
     ("n-decane", "nC10", ("decane",), 617.70, 21.10, 0.490, 142.285, 624.00),
 )
+
+#: Source of ``LIQUID_DENSITY`` (all components but water).
+LIQUID_DENSITY_SOURCE = (
+    "Perry's Chemical Engineers' Handbook, 8th ed. (2008), Table 2-32, DIPPR equation 105 "
+    "coefficients (as distributed in the chemicals package), evaluated at 0.75 tc"
+)
+#: Source of water's value.
+WATER_DENSITY_SOURCE = (
+    "IAPWS steam tables, saturated liquid at 453.0 K (v = 0.001127 m3/kg at 180 degC, from memory)"
+)
+
+#: Published saturated-liquid molar density of each built-in component, ``(Tr, mol/m3)``: at
+#: Tr = 0.75, the middle of the range Tr 0.6-0.8 where liquid densities are checked (a constant
+#: shift cannot follow the EOS's temperature slope; matching mid-range halves the largest error
+#: of matching at Tr = 0.7), except water (IAPWS value at Tr = 0.7). Temperatures in comments.
+LIQUID_DENSITY: dict[str, tuple[float, float]] = {
+    "N2": (0.75, 25711.3),  # 94.65 K
+    "CO2": (0.75, 25842.7),  # 228.09 K
+    "H2S": (0.75, 24058.6),  # 280.05 K
+    "H2O": (0.70, 0.887e6 / 18.015),  # 453.0 K; WATER_DENSITY_SOURCE
+    "C1": (0.75, 23121.9),  # 142.92 K
+    "C2": (0.75, 16028.0),  # 228.99 K
+    "C3": (0.75, 11847.7),  # 277.37 K
+    "iC4": (0.75, 9323.2),  # 305.89 K
+    "nC4": (0.75, 9420.9),  # 318.84 K
+    "iC5": (0.75, 7815.4),  # 345.29 K
+    "nC5": (0.75, 7799.5),  # 352.27 K
+    "nC6": (0.75, 6654.7),  # 380.70 K
+    "nC7": (0.75, 5785.8),  # 405.15 K
+    "nC8": (0.75, 5114.9),  # 426.53 K
+    "nC9": (0.75, 4573.1),  # 445.95 K
+    "nC10": (0.75, 4128.8),  # 463.28 K
+}

@@ -291,7 +291,7 @@ def _flash_arrays(
     label = np.where(phase_count == 3, PhaseLabel.THREE_PHASE, PhaseLabel.TWO_PHASE)
     label = label.astype(np.int8)
     if one.any():
-        label[one] = single_phase_label(mixture.tc, mixture.vc, z[one], t[one])
+        label[one] = single_phase_label(mixture, p[one], t[one], z[one], z_feed[one])
         vap_like = one & (label == PhaseLabel.VAPOUR_LIKE)
         liq_like = one & (label == PhaseLabel.LIQUID_LIKE)
         beta[vap_like] = 1.0
@@ -300,7 +300,7 @@ def _flash_arrays(
         x[liq_like] = z[liq_like]
         z_vap[vap_like] = z_feed[vap_like]
         z_liq[liq_like] = z_feed[liq_like]
-    kinds = _phase_kinds(mixture, t, x, y, x2)
+    kinds = _phase_kinds(mixture, p, t, x, y, x2, z_vap)
 
     liquid = phase_properties(mixture, p, t, x, z_liq)
     vapour = phase_properties(mixture, p, t, y, z_vap)
@@ -338,7 +338,7 @@ def _trial_gates(mixture: Mixture) -> NDArray[np.float64]:
     return np.full(mixture.n_components, _k.WATER_GATE if water else _k.CORNER_GATE)
 
 
-def _phase_kinds(mixture: Mixture, t, x, y, x2) -> tuple[NDArray[np.int8], ...]:
+def _phase_kinds(mixture: Mixture, p, t, x, y, x2, z_vap) -> tuple[NDArray[np.int8], ...]:
     """:class:`PhaseKind` of the liquid, vapour and second-liquid slots (see its docstring)."""
     names = mixture.names
 
@@ -355,6 +355,6 @@ def _phase_kinds(mixture: Mixture, t, x, y, x2) -> tuple[NDArray[np.int8], ...]:
     vapour = liquid_kind(y)
     there = ~np.isnan(y[:, 0])
     if there.any():
-        like = single_phase_label(mixture.tc, mixture.vc, y[there], t[there])
+        like = single_phase_label(mixture, p[there], t[there], y[there], z_vap[there])
         vapour[np.flatnonzero(there)[like == PhaseLabel.VAPOUR_LIKE]] = PhaseKind.VAPOUR
     return liquid_kind(x), vapour, liquid_kind(x2)

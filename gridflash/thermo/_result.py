@@ -47,8 +47,8 @@ class FlashStatus(enum.IntEnum):
 class PhaseLabel(enum.IntEnum):
     """Per-cell phase label (stored as ``phase_label``).
 
-    Single-phase cells are labelled vapour-like or liquid-like by Li's mixture pseudo-critical
-    temperature (see :mod:`gridflash.thermo._properties`).
+    Single-phase cells are labelled vapour-like or liquid-like by Venkatarathnam & Oellrich's
+    phase-identification parameter (see :func:`gridflash.thermo.single_phase_label`).
     """
 
     TWO_PHASE = 0
@@ -60,8 +60,8 @@ class PhaseLabel(enum.IntEnum):
 class PhaseKind(enum.IntEnum):
     """What the phase in one slot (liquid, vapour, second liquid) of a cell is.
 
-    The vapour slot holds the phase of largest Z: VAPOUR where it is vapour-like by Li's
-    pseudo-critical temperature (the single-phase rule), else a liquid kind. A liquid is
+    The vapour slot holds the phase of largest Z: VAPOUR where it is vapour-like by the
+    phase-identification parameter (the single-phase rule), else a liquid kind. A liquid is
     AQUEOUS_LIQUID where water is more than half of it, CO2_RICH_LIQUID where carbon dioxide
     is, else HYDROCARBON_LIQUID.
     """

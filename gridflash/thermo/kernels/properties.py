@@ -1,7 +1,8 @@
 """Compiled per-cell phase properties (the implementation behind :mod:`._properties`).
 
-Volume-shifted molar volume, molar and mass density, molar mass and the Lohrenz-Bray-Clark
-viscosity with the Stiel-Thodos / Herning-Zipperer dilute-gas term; the equations are given in
+Volume-shifted molar volume, molar and mass density, molar mass, the Lohrenz-Bray-Clark
+viscosity with the Stiel-Thodos / Herning-Zipperer dilute-gas term and the phase-identification
+parameter of single phases; the equations are given in
 the docstrings of :mod:`._properties`. Compiled like the flash kernels (``nogil``, disk cache) so
 that worker threads run them in parallel.
 """
@@ -117,3 +118,52 @@ def properties_batch(
         molar_mass[c] = m
         mass_density[c] = m * 1e-3 * density[c]
     lbc_batch(tc, pc, mw, vc, t, x, density, viscosity)
+
+
+@kernel
+def pip_cell(ac, m, b, tc, one_minus_k, d1, d2, t, v, x):
+    """Phase-identification parameter of one phase of composition ``x`` at ``(T, V)``.
+
+    ``PI = V [(d2P/dTdV) / (dP/dT)_V - (d2P/dV2)_T / (dP/dV)_T]`` (Venkatarathnam & Oellrich
+    2011) for ``P = RT / (V - b) - a / ((V + d1 b)(V + d2 b))`` with van der Waals
+    mixing of ``a(T)`` and ``b``; ``V`` is the EOS (unshifted) molar volume, m3/mol.
+    """
+    nc = x.shape[0]
+    a = 0.0
+    da = 0.0
+    bm = 0.0
+    for i in range(nc):
+        bm += x[i] * b[i]
+    for i in range(nc):
+        if x[i] == 0.0:
+            continue
+        si = 1.0 + m[i] * (1.0 - math.sqrt(t / tc[i]))
+        ai = ac[i] * si * si
+        dai = -ac[i] * m[i] * si / math.sqrt(t * tc[i])
+        for j in range(nc):
+            if x[j] == 0.0:
+                continue
+            sj = 1.0 + m[j] * (1.0 - math.sqrt(t / tc[j]))
+            aj = ac[j] * sj * sj
+            daj = -ac[j] * m[j] * sj / math.sqrt(t * tc[j])
+            root = math.sqrt(ai * aj)
+            w = x[i] * x[j] * one_minus_k[i, j]
+            a += w * root
+            da += w * (dai * aj + ai * daj) / (2.0 * root)
+    vb = v - bm
+    den = (v + d1 * bm) * (v + d2 * bm)
+    dden = 2.0 * v + (d1 + d2) * bm
+    p_v = -R * t / (vb * vb) + a * dden / (den * den)
+    p_vv = 2.0 * R * t / (vb * vb * vb) + a * (2.0 / (den * den) - 2.0 * dden * dden / den**3)
+    p_t = R / vb - da / den
+    p_tv = -R / (vb * vb) + da * dden / (den * den)
+    return v * (p_tv / p_t - p_vv / p_v), bm / v
+
+
+@kernel
+def phase_label_batch(ac, m, b, tc, one_minus_k, d1, d2, p, t, x, z_factor, dilute, out):
+    """Labels (1 vapour-like, 2 liquid-like) of n single phases; see :mod:`.._properties`."""
+    for c in range(x.shape[0]):
+        v = z_factor[c] * R * t[c] / p[c]
+        pip, packing = pip_cell(ac, m, b, tc, one_minus_k, d1, d2, t[c], v, x[c])
+        out[c] = 2 if pip > 1.0 and packing >= dilute else 1
