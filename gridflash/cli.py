@@ -489,8 +489,10 @@ def _format_summary(summary, spec) -> str:
         f"wrote {summary.output} (complete)",
         f"  {what}: {shape} = {summary.cells_total:,} cells in {summary.blocks_total} chunks",
         f"  chunks: {summary.blocks_computed} computed, {summary.blocks_reused} reused",
-        f"  cells: {stats.two_phase:,} two-phase, {stats.single_phase:,} single-phase, "
-        f"{stats.unconverged:,} unconverged",
+        f"  cells: {stats.three_phase:,} three-phase, {stats.two_phase:,} two-phase, "
+        f"{stats.single_phase:,} single-phase, {stats.unconverged:,} unconverged "
+        f"({stats.not_certified:,} not certified, {stats.three_phase_failed:,} three-phase "
+        "failed)",
         f"  iterations per cell: {_mean(attrs.get('mean_iterations'))} mean "
         f"(warm-started {_mean(attrs.get('mean_iterations_warm_start'))}, "
         f"cold {_mean(attrs.get('mean_iterations_cold_start'))})",
@@ -584,6 +586,7 @@ def _format_report(report, units: _Units) -> str:
 
     lines += [
         f"phase state ({report.cells_total:,} cells):",
+        f"  three-phase          {stats.three_phase:>12,}  {pct(stats.three_phase)}",
         f"  two-phase            {stats.two_phase:>12,}  {pct(stats.two_phase)}",
         f"  single, vapour-like  {report.vapour_like:>12,}  {pct(report.vapour_like)}",
         f"  single, liquid-like  {report.liquid_like:>12,}  {pct(report.liquid_like)}",
@@ -615,6 +618,157 @@ def _format_report(report, units: _Units) -> str:
         lines.append(f"wall time: {float(attrs['wall_time_seconds']):.1f} s over "
                      f"{attrs.get('run_sessions', 1)} session(s)")
     return "\n".join(lines)
+
+_EPILOG_ENVELOPE = """\b
+Examples:
+  gridflash envelope configs/volatile_oil_co2.toml            # the config's compositions
+  gridflash envelope configs/volatile_oil_co2.zarr            # (re)compute and store them
+  gridflash envelope my.toml --plot envelopes.png --temperature-unit K
+"""
+
+
+@cli.command("envelope", epilog=_EPILOG_ENVELOPE)
+@click.argument("target", type=click.Path(exists=True, path_type=Path))
+@click.option("--plot", "plot_path", type=click.Path(dir_okay=False, path_type=Path),
+              metavar="PNG", help="Also draw the envelopes (several compositions) into PNG.")
+@click.option("--pressure-unit", default="bar", show_default=True, metavar="UNIT",
+              help="Unit of the printed and plotted pressures.")
+@click.option("--temperature-unit", default="degC", show_default=True, metavar="UNIT",
+              help="Unit of the printed and plotted temperatures.")
+def envelope_command(target: Path, plot_path: Path | None, pressure_unit: str,
+                     temperature_unit: str) -> None:
+    """Trace the phase envelope of every composition of TARGET and print its critical point,
+    cricondenbar and cricondentherm.
+
+    TARGET is a store (the envelopes are then stored in it too) or a TOML config (nothing is
+    written but the optional picture).
+    """
+    import numpy as np
+
+    from ._errors import ConfigError
+    from .analysis import add_envelopes, composition_envelopes
+    from .config import load_config
+
+    if target.is_dir():
+        envelopes = add_envelopes(target)
+        comp_dim = envelopes.envelope_status.dims[0]
+        where = f"stored in {target}"
+    else:
+        spec = load_config(target)
+        axis = spec.composition
+        if spec.sampling is not None:
+            raise ConfigError(f"{target}: a sampled config has no composition axis to trace "
+                              "envelopes along")
+        comp_dim = axis.name
+        envelopes = composition_envelopes(spec.fluid.mixture(), axis.feed_array(), comp_dim,
+                                          np.asarray(axis.values))
+        where = "not stored (a config)"
+    click.echo(_envelope_text(envelopes, comp_dim, pressure_unit, temperature_unit))
+    click.echo(f"{envelopes.sizes[comp_dim]} envelope(s), {where}")
+    if plot_path is not None:
+        from .analysis import envelope_figure
+
+        envelope_figure(envelopes, plot_path, pressure_unit=pressure_unit,
+                        temperature_unit=temperature_unit)
+        click.echo(f"wrote {plot_path}")
+
+
+def _envelope_text(envelopes, comp_dim: str, p_unit: str, t_unit: str) -> str:
+    import numpy as np
+
+    from .config import pressure_from_pa, temperature_from_kelvin
+    from .thermo import EnvelopeStatus
+
+    def t(v):
+        return f"{temperature_from_kelvin(float(v), t_unit):9.2f}"
+
+    def p(v):
+        return f"{pressure_from_pa(float(v), p_unit):9.2f}"
+
+    head = (f"{comp_dim:>12}  {'critical T':>9} {'P':>9}  {'cricondenbar T':>14} {'P':>9}  "
+            f"{'cricondentherm T':>16} {'P':>9}  points  status   [{t_unit}, {p_unit}]")
+    rows = [head]
+    for k in range(envelopes.sizes[comp_dim]):
+        e = envelopes.isel({comp_dim: k})
+        n = int(np.isfinite(e.envelope_temperature.values).sum())
+        status = EnvelopeStatus(int(e.envelope_status)).name.lower()
+        rows.append(
+            f"{float(e[comp_dim]):>12.4g}  {t(e.critical_temperature)} "
+            f"{p(e.critical_pressure)}  {t(e.envelope_cricondenbar_temperature):>14} "
+            f"{p(e.envelope_cricondenbar_pressure)}  {t(e.cricondentherm_temperature):>16} "
+            f"{p(e.cricondentherm_pressure)}  {n:>6}  {status}")
+    return "\n".join(rows)
+
+
+_EPILOG_MMP = """\b
+Examples:
+  gridflash mmp configs/volatile_oil_co2.toml               # print MMP vs temperature
+  gridflash mmp configs/volatile_oil_co2.zarr --plot figs   # store it, draw P-x diagrams
+"""
+
+
+@cli.command("mmp", epilog=_EPILOG_MMP)
+@click.argument("target", type=click.Path(exists=True, path_type=Path))
+@click.option("--contacts", type=click.IntRange(min=2), default=40, show_default=True,
+              help="Mixing-cell contacts per pressure.")
+@click.option("--plot", "plot_dir", type=click.Path(file_okay=False, path_type=Path),
+              metavar="DIR", help="Also draw the P-x / swelling diagram of each temperature.")
+@click.option("--pressure-unit", default="bar", show_default=True, metavar="UNIT")
+@click.option("--temperature-unit", default="degC", show_default=True, metavar="UNIT")
+def mmp_command(target: Path, contacts: int, plot_dir: Path | None, pressure_unit: str,
+                temperature_unit: str) -> None:
+    """Print the first- and multi-contact minimum miscibility pressure of the oil and gas of
+    TARGET at each of its temperatures, with the swelling study along its mixing axis.
+
+    TARGET is a store (the results are then stored in it too) or a TOML config. Its
+    composition axis must mix two streams: the first is the oil, the second the gas.
+    """
+    import numpy as np
+    import xarray as xr
+
+    from ._errors import ConfigError
+    from .analysis import add_studies, miscibility_study, swelling_study
+    from .config import load_config, pressure_from_pa, temperature_from_kelvin
+    from .thermo import MiscibilityStatus
+
+    if target.is_dir():
+        study = add_studies(target, contacts=contacts)
+        where = f"stored in {target}"
+    else:
+        spec = load_config(target)
+        axis = spec.composition
+        if spec.sampling is not None or axis.name != "mixing_ratio" or len(axis.streams) != 2:
+            raise ConfigError(
+                f"{target}: the composition axis is not a two-stream mixing axis "
+                "([composition] kind = \"mixing\"); MMP needs an oil and a gas stream")
+        streams = dict(spec.streams)
+        oil, gas = (np.array(streams[name]) for name in axis.streams)
+        mixture = spec.fluid.mixture()
+        t = np.array(spec.temperature.values)
+        study = xr.merge([
+            swelling_study(mixture, oil, gas, t, np.array(axis.values)),
+            miscibility_study(mixture, oil, gas, t, contacts=contacts)])
+        where = "not stored (a config)"
+    click.echo(f"{'temperature':>12}  {'first-contact MMP':>17}  {'multi-contact MMP':>17}  "
+               f"status  [{temperature_unit}, {pressure_unit}]")
+    for k in range(study.sizes["temperature"]):
+        s = study.isel(temperature=k)
+        status = MiscibilityStatus(int(s.mmp_status)).name.lower()
+        if int(s.mmp_three_phase):
+            status += ", third phase seen"
+        click.echo(
+            f"{temperature_from_kelvin(float(s.temperature), temperature_unit):>12.2f}  "
+            f"{pressure_from_pa(float(s.first_contact_mmp), pressure_unit):>17.2f}  "
+            f"{pressure_from_pa(float(s.multi_contact_mmp), pressure_unit):>17.2f}  {status}")
+    click.echo(f"mixing cells: {contacts} contacts; {where}")
+    if plot_dir is not None:
+        from .analysis import swelling_figure
+
+        for k in range(study.sizes["temperature"]):
+            out = swelling_figure(study, plot_dir / f"swelling_{k}.png", temperature_index=k,
+                                  pressure_unit=pressure_unit,
+                                  temperature_unit=temperature_unit)
+            click.echo(f"wrote {out}")
 
 
 if __name__ == "__main__":  # pragma: no cover - python -m gridflash.cli

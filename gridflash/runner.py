@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from ._errors import GridflashError, InputError, StoreError
-from .analysis import saturation_lines
+from .analysis import envelopes_part, join_parts, saturation_lines, write_envelopes
 from .compute import sample_block, sweep_block
 from .config import RunSpec, changed_keys
 from .plan import BlockId, ChunkPlan, block_inputs, check_chunks_aligned, chunk_plan
@@ -62,6 +62,7 @@ __all__ = [
     "run",
     "saturation_lines_part",
     "saturation_step",
+    "envelope_step",
 ]
 
 #: Times dask re-runs a task that raised (a worker death is retried by the scheduler anyway,
@@ -191,7 +192,7 @@ def compute_block(task: BlockTask) -> BlockSummary:
     mark_block_complete(path, task.block)
     stats = block_stats(
         result["phase_count"], result["converged"], result["iterations"],
-        result["stability_iterations"], result["warm_start"],
+        result["stability_iterations"], result["warm_start"], result["status"],
     )
     return BlockSummary(task.block, stats, time.perf_counter() - start)
 
@@ -334,6 +335,8 @@ def _run_locked(
             compute_parts=None if client is None else functools.partial(_lines_on_workers, client),
             threads=local_workers,
         )
+        # Phase envelopes of the compositions: one task per composition chunk.
+        envelope_step(path, client=client, chunk=dict(spec.run.chunks).get(spec.dims[-1]))
 
     reused = [b for b in plan.block_ids() if done[b]]
     stats = sum((s.stats for s in computed), BlockStats())
@@ -666,6 +669,38 @@ def saturation_step(
     lines = lines.isel({comp_dim: np.argsort(order)})
     write_line_variables(store, lines)
     return lines
+
+
+def envelope_step(path: str | os.PathLike[str], *, client=None, chunk: int | None = None):
+    """The run's post-step for envelopes: the traced phase envelope of every composition of a
+    grid store (:func:`gridflash.analysis.composition_envelopes`), written into it.
+
+    One task (:func:`gridflash.analysis._envelopes.envelopes_part`) per ``chunk`` compositions
+    (default all in one), on the ``client``'s workers, or here without a client. A sampled
+    store is left as it is (returns None). Each envelope depends only on its feed, so the
+    answer does not depend on the chunks.
+    """
+    store = str(path)
+    ds = open_unconsolidated(store)
+    try:
+        dims = tuple(ds.phase_count.dims)
+        if dims[:2] != ("pressure", "temperature"):
+            return None
+        comp_dim = dims[2]
+        n_comp = ds.sizes[comp_dim]
+    finally:
+        ds.close()
+    step = max(1, chunk or n_comp)
+    ranges = [(a, min(a + step, n_comp)) for a in range(0, n_comp, step)]
+    if client is None:
+        parts = [envelopes_part(store, a, b) for a, b in ranges]
+    else:
+        parts = client.gather([
+            client.submit(envelopes_part, store, a, b, retries=_RETRIES, pure=False)
+            for a, b in ranges])
+    envelopes = join_parts(parts, comp_dim)
+    write_envelopes(store, envelopes)
+    return envelopes
 
 
 def saturation_lines_part(path: str, part: int, n_parts: int, threads: int | None = None):

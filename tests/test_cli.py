@@ -67,10 +67,11 @@ def test_run_end_to_end(cold_store):
     for name, expected in checks.items():
         got = ds[name].values.reshape(n, -1).squeeze()
         assert np.array_equal(got, expected, equal_nan=got.dtype.kind == "f"), name
-    counts = re.search(r"cells: (\d+) two-phase, (\d+) single-phase, (\d+) unconverged",
-                       result.stdout)
-    assert counts and int(counts[1]) == int((ref.phase_count == 2).sum())
-    assert int(counts[3]) == int((~ref.converged).sum())
+    counts = re.search(r"cells: (\d+) three-phase, (\d+) two-phase, (\d+) single-phase, "
+                       r"(\d+) unconverged", result.stdout)
+    assert counts and int(counts[2]) == int((ref.phase_count == 2).sum())
+    assert int(counts[1]) == int((ref.phase_count == 3).sum())
+    assert int(counts[4]) == int((~ref.converged).sum())
 
 
 def test_existing_store_refused_in_one_line(cold_store):

@@ -5,7 +5,8 @@ Reference for the tie lines: CoolProp (HEOS backend: multiparameter pure-fluid e
 the GERG-2008 mixing rules and departure functions of Kunz & Wagner, J. Chem. Eng. Data 57
 (2012) 3032). For each point CoolProp gives the bubble pressure ``P`` of a liquid ``x`` at ``T``
 and the vapour ``y`` in equilibrium with it; a feed ``z = x + beta (y - x)`` on that tie line
-must flash at ``(T, P)`` into two phases with a vapour fraction within 0.06 of ``beta``.
+must flash at ``(T, P)`` into two phases with a vapour fraction within 0.06 of ``beta``, and
+feeds a little beyond either end of the tie line into one phase.
 """
 
 from __future__ import annotations
@@ -247,3 +248,10 @@ def test_tie_lines_at_default_kij_match_gerg2008(names, temperature, x_liquid):
     result = gridflash.flash(Mixture(list(names)), pressure, temperature, z)
     assert result.phase_count.tolist() == [2, 2, 2]
     assert np.abs(result.vapour_fraction - betas).max() <= 0.06
+    # Beyond either end of the reference tie line by a tenth of its length the reference is one
+    # phase at this T and P; so must gridflash be (ends that leave the simplex are skipped).
+    beyond = np.array([x - 0.1 * (y - x), y + 0.1 * (y - x)])
+    beyond = beyond[(beyond >= 0.0).all(axis=1)]
+    outside = gridflash.flash(Mixture(list(names)), pressure, temperature,
+                              beyond / beyond.sum(axis=1, keepdims=True))
+    assert outside.phase_count.tolist() == [1] * len(beyond)

@@ -342,3 +342,38 @@ def test_property_cold_co2_cells_certified(p, t, co2):
         FlashStatus.NOT_CERTIFIED,
         FlashStatus.THREE_PHASE_FAILED,
     )
+
+
+def test_example_config_with_connate_water(tmp_path):
+    # configs/volatile_oil_water.toml (invented oil with connate water) runs, stores three-phase
+    # cells with an aqueous second liquid, and its converged cells pass the independent test.
+    import shutil
+    from pathlib import Path
+
+    from gridflash.config._parser import load_config
+    from gridflash.runner import run
+    from gridflash.store import open_table
+
+    source = Path(__file__).resolve().parents[1] / "configs" / "volatile_oil_water.toml"
+    config = tmp_path / source.name
+    shutil.copy(source, config)
+    spec = load_config(config)
+    summary = run(spec, workers=1)
+    assert summary.stats.three_phase > 0 and summary.stats.unconverged == 0
+    ds = open_table(spec.run.output).load()
+    three = ds.phase_count.values == 3
+    assert three.sum() == summary.stats.three_phase
+    assert np.all(ds.second_liquid_kind.values[three] == PhaseKind.AQUEOUS_LIQUID)
+    assert np.all(ds.second_liquid_composition.sel(component="H2O").values[three] > 0.99)
+    frac = ds.second_liquid_fraction.values[three]
+    assert np.all((frac > 0) & (frac < 1))
+    mix = gridflash.mixture_from_store(ds)
+    model = plain(mix)
+    cells = np.argwhere(three)[::7]
+    for i, j, k in cells:
+        cell = ds.isel(pressure=i, temperature=j, mixing_ratio=k)
+        x = cell.liquid_composition.values
+        tm = min_tangent_plane_distance(
+            model, x, float(cell.pressure), float(cell.temperature), n_random=4
+        )
+        assert tm > -1e-7

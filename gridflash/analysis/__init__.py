@@ -4,6 +4,15 @@ plots and exports (CSV, Parquet, NetCDF).
 
 from __future__ import annotations
 
+from ._envelopes import (
+    ENVELOPE_POINT_DIM,
+    ENVELOPE_VARIABLES,
+    add_envelopes,
+    composition_envelopes,
+    envelopes_part,
+    join_parts,
+    write_envelopes,
+)
 from ._export import (
     DEFAULT_SPLIT,
     SPLIT_NAMES,
@@ -38,8 +47,23 @@ from ._saturation_lines import (
     add_saturation_lines,
     saturation_lines,
 )
+from ._study_plots import envelope_figure, swelling_figure
+from ._swelling import add_studies, miscibility_study, mixing_streams, swelling_study
 
 __all__ = [
+    "ENVELOPE_POINT_DIM",
+    "ENVELOPE_VARIABLES",
+    "add_envelopes",
+    "composition_envelopes",
+    "envelopes_part",
+    "join_parts",
+    "write_envelopes",
+    "envelope_figure",
+    "mixing_streams",
+    "add_studies",
+    "miscibility_study",
+    "swelling_study",
+    "swelling_figure",
     "AxisReport",
     "DEFAULT_LOOKUP_VARIABLES",
     "DEFAULT_SPLIT",

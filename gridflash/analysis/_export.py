@@ -266,7 +266,9 @@ def _columns(ds: xr.Dataset, dims: tuple[str, ...]) -> list[tuple[Column, str, s
     for c in components:
         add(f"feed_{c}", "feature", "1", f"mole fraction of {c} in the feed", "feed_composition",
             c)
-    add("phase_count", "label", "1", "number of phases at equilibrium (1 or 2)", "phase_count")
+    add("phase_count", "label", "1", "number of phases at equilibrium (1, 2 or 3)",
+        "phase_count")
+    three = "second_liquid_fraction" in ds  # stores written before three-phase flashes lack it
     labels = ds.phase_label.attrs
     add("phase_label", "label", "1",
         f"phase state code: {_codes(labels)} (single phases labelled by the "
@@ -274,21 +276,34 @@ def _columns(ds: xr.Dataset, dims: tuple[str, ...]) -> list[tuple[Column, str, s
     add("vapour_fraction", "label", "1",
         "vapour mole fraction (moles of vapour per mole of feed); 1 for a single vapour-like "
         "phase, 0 for a single liquid-like phase", "vapour_fraction")
+    if three:
+        add("second_liquid_fraction", "label", "1",
+            "second-liquid mole fraction (the liquid of smallest Z, aqueous or CO2-rich); 0 "
+            "where fewer than three phases", "second_liquid_fraction")
     for phase, var in (("liquid", "liquid_composition"), ("vapour", "vapour_composition")):
         for c in components:
             add(f"{phase}_{c}", "label", "1",
                 f"mole fraction of {c} in the {phase} phase (the feed for a single {phase}-like "
                 "phase; NaN where there is no such phase)", var, c)
+    for c in components if three else ():
+        add(f"second_liquid_{c}", "label", "1",
+            f"mole fraction of {c} in the second liquid phase (NaN where fewer than three "
+            "phases)", "second_liquid_composition", c)
     for c in components:
         add(f"k_value_{c}", "label", "1",
             f"equilibrium ratio K = y / x of {c} (NaN for a single phase)", "k_value", c)
-    for phase in ("liquid", "vapour"):
+    for phase in ("liquid", "vapour", "second_liquid") if three else ("liquid", "vapour"):
         for prop, units, text in _PHASE_PROPERTIES:
             add(f"{phase}_{prop}", "label", units,
-                (text + _ABSENT).format(phase=phase), f"{phase}_{prop}")
+                (text + _ABSENT).format(phase=phase.replace("_", " ")), f"{phase}_{prop}")
+    for slot in ("liquid", "vapour", "second_liquid") if three else ():
+        add(f"{slot}_kind", "label", "1",
+            f"what the {slot.replace('_', ' ')} slot holds: {_codes(ds[f'{slot}_kind'].attrs)}",
+            f"{slot}_kind")
     add("converged", "label", "1",
-        "True where the cell converged (fugacity residual < 1e-10 and material balance < "
-        "1e-12); a False row's labels are not reliable", "converged")
+        "True where the cell converged (fugacity residual < 1e-10, material balance < "
+        "1e-12, and its phases passed the stability test); a False row's labels are not "
+        "reliable", "converged")
     add("status", "label", "1", f"flash outcome code: {_codes(ds.status.attrs)}", "status")
     add("split", "split", "",
         "train, validation or test, from a SHA-256 hash of the cell's inputs (pressure in "
@@ -413,9 +428,11 @@ def export_table(
     Columns (see ``FILE.columns.json`` for the full list with units): ``cell`` (and ``mixture``
     for a mixture-index axis) identify the cell; features ``pressure`` (Pa), ``temperature``
     (K), ``mixing_ratio`` or ``stream_fraction_<stream>``, ``feed_<component>``; labels
-    ``phase_count``, ``phase_label``, ``vapour_fraction``, ``liquid_<component>``,
-    ``vapour_<component>``, ``k_value_<component>``, per-phase ``density``, ``molar_density``,
-    ``viscosity``, ``molar_mass`` and ``z_factor``, ``converged``, ``status``; and ``split``.
+    ``phase_count``, ``phase_label``, ``vapour_fraction``, ``second_liquid_fraction``,
+    ``liquid_<component>``, ``vapour_<component>``, ``second_liquid_<component>``,
+    ``k_value_<component>``, per-phase (liquid, vapour, second liquid) ``density``,
+    ``molar_density``, ``viscosity``, ``molar_mass`` and ``z_factor``, ``<phase>_kind``,
+    ``converged``, ``status``; and ``split``.
     Rows are in the order of ``cell``.
     """
     fractions = parse_split(split)

@@ -128,7 +128,7 @@ def inspect_store(path: str | os.PathLike[str], *, max_listed: int = 20) -> Stor
         conv = group["converged"][region]
         stats = stats + block_stats(pc, conv, group["iterations"][region],
                                     group["stability_iterations"][region],
-                                    group["warm_start"][region])
+                                    group["warm_start"][region], group["status"][region])
         label = group["phase_label"][region]
         single = pc == 1
         vapour_like += int((single & (label == PhaseLabel.VAPOUR_LIKE)).sum())

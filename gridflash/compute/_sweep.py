@@ -28,6 +28,7 @@ __all__ = [
 CELL_FIELDS: tuple[str, ...] = (
     "phase_count",
     "vapour_fraction",
+    "second_liquid_fraction",
     "converged",
     "status",
     "iterations",
@@ -35,10 +36,14 @@ CELL_FIELDS: tuple[str, ...] = (
     "residual",
     "material_balance",
     "phase_label",
+    "liquid_kind",
+    "vapour_kind",
+    "second_liquid_kind",
+    "certification_iterations",
     "tpd",
     *(
         f"{phase}.{prop}"
-        for phase in ("liquid", "vapour")
+        for phase in ("liquid", "vapour", "second_liquid")
         for prop in (
             "z_factor",
             "molar_volume",
@@ -51,7 +56,7 @@ CELL_FIELDS: tuple[str, ...] = (
     "warm_start",
 )
 #: Per-cell, per-component fields.
-COMPONENT_FIELDS: tuple[str, ...] = ("x", "y", "K")
+COMPONENT_FIELDS: tuple[str, ...] = ("x", "y", "x2", "K")
 BLOCK_FIELDS: tuple[str, ...] = CELL_FIELDS + COMPONENT_FIELDS
 
 
@@ -143,7 +148,7 @@ def sweep_block(
     result = flash_slabs(mixture, pressure, temperature, z, slab_cells, warm_start=warm_start)
     offered = np.zeros(n_cells, dtype=bool)
     if warm_start:
-        offered[slab_cells:] = ((result.phase_count == 2) & result.converged)[:-slab_cells]
+        offered[slab_cells:] = ((result.phase_count > 1) & result.converged)[:-slab_cells]
     fields = {}
     for key in BLOCK_FIELDS:
         value = offered if key == "warm_start" else _field(result, key)

@@ -28,7 +28,7 @@ from zarr.codecs import BloscCodec
 from .._version import __version__
 from ..config import RunSpec
 from ..plan import ChunkPlan
-from ..thermo import FlashStatus, PhaseLabel
+from ..thermo import FlashStatus, PhaseKind, PhaseLabel
 from ..thermo._interaction_data import REFERENCES as KIJ_REFERENCES
 
 __all__ = [
@@ -112,39 +112,60 @@ def _phase_variables(phase: str) -> list[Variable]:
 #: Every per-cell data variable, in store order.
 VARIABLES: tuple[Variable, ...] = (
     Variable("phase_count", "phase_count", "int8", 0, False, {
-        "units": "1", "long_name": "number of phases at equilibrium (1 or 2)",
-        "valid_range": [1, 2], "comment": "0 where the cell has not been computed"}),
+        "units": "1", "long_name": "number of phases at equilibrium (1, 2 or 3)",
+        "valid_range": [1, 3], "comment": "0 where the cell has not been computed"}),
     _float("vapour_fraction", "vapour_fraction", "1",
-           "vapour mole fraction (moles of vapour per mole of feed); 1 for a single vapour-like "
-           "phase, 0 for a single liquid-like phase"),
+           "vapour mole fraction (moles of the phase of largest Z per mole of feed); 1 for a "
+           "single vapour-like phase, 0 for a single liquid-like phase"),
+    _float("second_liquid_fraction", "second_liquid_fraction", "1",
+           "second-liquid mole fraction (moles of the liquid of smallest Z, aqueous or "
+           "CO2-rich, per mole of feed); 0 where fewer than three phases"),
     Variable("liquid_composition", "x", "float64", np.nan, True, {
         "units": "1", "long_name": "mole fraction of each component in the liquid phase"}),
     Variable("vapour_composition", "y", "float64", np.nan, True, {
         "units": "1", "long_name": "mole fraction of each component in the vapour phase"}),
+    Variable("second_liquid_composition", "x2", "float64", np.nan, True, {
+        "units": "1", "long_name": "mole fraction of each component in the second liquid "
+        "phase (NaN where fewer than three phases)"}),
     Variable("k_value", "K", "float64", np.nan, True, {
         "units": "1", "long_name": "equilibrium ratio K = y / x of each component "
         "(NaN for a single phase)"}),
     *_phase_variables("liquid"),
     *_phase_variables("vapour"),
+    *_phase_variables("second_liquid"),
+    *(
+        Variable(f"{slot}_kind", f"{slot}_kind", "int8", -1, False, {
+            "units": "1", "long_name": f"what the phase in the {slot.replace('_', ' ')} slot "
+            "is (vapour, hydrocarbon liquid, aqueous liquid, CO2-rich liquid; absent)",
+            **_flags(PhaseKind), "comment": "-1 where the cell has not been computed"})
+        for slot in ("liquid", "vapour", "second_liquid")
+    ),
     Variable("phase_label", "phase_label", "int8", -1, False, {
-        "units": "1", "long_name": "phase state: two-phase, or the kind of single phase "
-        "(phase-identification parameter of Venkatarathnam & Oellrich 2011)", **_flags(PhaseLabel),
+        "units": "1", "long_name": "phase state: two-phase, three-phase, or the kind of single "
+        "phase (phase-identification parameter of Venkatarathnam & Oellrich 2011)",
+        **_flags(PhaseLabel),
         "comment": "-1 where the cell has not been computed"}),
     Variable("converged", "converged", "bool", False, False, {
-        "units": "1", "long_name": "cell converged (fugacity residual < 1e-10 and material "
-        "balance < 1e-12)", "flag_values": [0, 1], "flag_meanings": "not_converged converged"}),
+        "units": "1", "long_name": "cell converged and certified (fugacity residual < 1e-10, "
+        "material balance < 1e-12, and no trial phase with tangent-plane distance < -1e-8 "
+        "against the reported phases)", "flag_values": [0, 1],
+        "flag_meanings": "not_converged converged"}),
     Variable("status", "status", "int8", -1, False, {
         "units": "1", "long_name": "flash outcome code", **_flags(FlashStatus),
         "comment": "-1 where the cell has not been computed"}),
     Variable("iterations", "iterations", "int32", -1, False, {
-        "units": "1", "long_name": "stability-test plus two-phase-split iterations"}),
+        "units": "1", "long_name": "stability-test, split and certification iterations"}),
     Variable("stability_iterations", "stability_iterations", "int32", -1, False, {
         "units": "1", "long_name": "stability-test iterations (0 where an accepted warm start "
         "made the test unnecessary)"}),
+    Variable("certification_iterations", "certification_iterations", "int32", -1, False, {
+        "units": "1", "long_name": "iterations spent certifying the answer (trial phases "
+        "against the reported phases) and on the splits certification started"}),
     _float("residual", "residual", "1",
-           "largest fugacity residual max_i |ln f_i(vapour) - ln f_i(liquid)| (0 for one phase)"),
+           "largest fugacity residual max_i |ln f_i(a) - ln f_i(b)| over phase pairs (0 for "
+           "one phase)"),
     _float("material_balance", "material_balance", "1",
-           "material-balance error max(|sum(y - x)|, max_i |z_i - (1 - V) x_i - V y_i|)"),
+           "material-balance error max(max_k |sum_i x_ki - 1|, max_i |z_i - sum_k beta_k x_ki|)"),
     _float("tpd", "tpd", "1",
            "lowest modified tangent-plane distance found by the stability test (NaN where the "
            "test was not run)"),

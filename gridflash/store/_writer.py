@@ -38,6 +38,7 @@ from .._errors import StoreError
 from ..compute import BlockResult
 from ..config import RunSpec
 from ..plan import BlockId, ChunkPlan
+from ..thermo import FlashStatus
 from ._reader import is_gridflash_store, open_group
 from ._schema import BLOCK_COMPLETE, VARIABLES, now_utc, template
 
@@ -80,6 +81,9 @@ class BlockStats:
     two_phase: int = 0
     single_phase: int = 0
     unconverged: int = 0
+    three_phase: int = 0
+    not_certified: int = 0
+    three_phase_failed: int = 0
     iterations: int = 0
     stability_iterations: int = 0
     warm_cells: int = 0
@@ -96,9 +100,12 @@ class BlockStats:
             return round(total / count, 6) if count else None
 
         out = {
+            "cells_three_phase": self.three_phase,
             "cells_two_phase": self.two_phase,
             "cells_single_phase": self.single_phase,
             "cells_unconverged": self.unconverged,
+            "cells_not_certified": self.not_certified,
+            "cells_three_phase_failed": self.three_phase_failed,
             "mean_iterations": mean(self.iterations, self.cells),
             "mean_stability_iterations": mean(self.stability_iterations, self.cells),
             "cells_warm_start": self.warm_cells,
@@ -114,9 +121,12 @@ def block_stats(
     iterations: np.ndarray,
     stability_iterations: np.ndarray,
     warm_start: np.ndarray,
+    status: np.ndarray | None = None,
 ) -> BlockStats:
-    """Counts over the computed cells (``phase_count > 0``) of a block's arrays."""
+    """Counts over the computed cells (``phase_count > 0``) of a block's arrays (the flagged
+    statuses only where ``status`` is given)."""
     done = phase_count > 0
+    flagged = np.zeros_like(done) if status is None else done & ~converged
     warm = warm_start & done
     it = np.where(done, iterations, 0).astype(np.int64)
     return BlockStats(
@@ -124,6 +134,9 @@ def block_stats(
         two_phase=int((phase_count == 2).sum()),
         single_phase=int((phase_count == 1).sum()),
         unconverged=int((done & ~converged).sum()),
+        three_phase=int((phase_count == 3).sum()),
+        not_certified=int((flagged & (status == FlashStatus.NOT_CERTIFIED)).sum()),
+        three_phase_failed=int((flagged & (status == FlashStatus.THREE_PHASE_FAILED)).sum()),
         iterations=int(it.sum()),
         stability_iterations=int(np.where(done, stability_iterations, 0).sum(dtype=np.int64)),
         warm_cells=int(warm.sum()),
@@ -136,7 +149,8 @@ def stored_block_stats(path: Path, plan: ChunkPlan, block: BlockId) -> BlockStat
     group = open_group(path, "r")
     region = plan.block_slices(block)
     arrays = [group[name][region] for name in (
-        "phase_count", "converged", "iterations", "stability_iterations", "warm_start")]
+        "phase_count", "converged", "iterations", "stability_iterations", "warm_start",
+        "status")]
     return block_stats(*arrays)
 
 

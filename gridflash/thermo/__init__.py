@@ -13,8 +13,17 @@ from ._characterisation import (
 )
 from ._characterisation_report import fluid_table_text, fluid_table_toml
 from ._components import Component, builtin_component, builtin_names
+from ._critical import CriticalPoint, critical_point
 from ._cubic import CubicModel, cubic_roots, phase_state, reduced_parameters
+from ._envelope import EnvelopeBranch, EnvelopeStatus, PhaseEnvelope, phase_envelope
 from ._flash import flash
+from ._miscibility import (
+    MiscibilityResult,
+    MiscibilityStatus,
+    first_contact_mmp,
+    multi_contact_mmp,
+    upper_saturation_pressure,
+)
 from ._mixture import EOS_NAMES, Mixture
 from ._properties import (
     lbc_viscosity,
@@ -40,22 +49,32 @@ __all__ = [
     "fluid_table_text",
     "fluid_table_toml",
     "Component",
+    "CriticalPoint",
+    "EnvelopeBranch",
+    "EnvelopeStatus",
     "CubicModel",
     "FlashResult",
     "FlashStatus",
+    "MiscibilityResult",
+    "MiscibilityStatus",
     "Mixture",
     "PhaseKind",
     "PhaseLabel",
+    "PhaseEnvelope",
     "PhaseProperties",
     "RachfordRiceResult",
     "RachfordRiceStatus",
     "StabilityResult",
     "builtin_component",
     "builtin_names",
+    "critical_point",
     "cubic_roots",
+    "first_contact_mmp",
     "flash",
     "lbc_viscosity",
+    "multi_contact_mmp",
     "peneloux_shift",
+    "phase_envelope",
     "phase_properties",
     "phase_state",
     "pure_vapour_pressure",
@@ -65,5 +84,6 @@ __all__ = [
     "reduced_parameters",
     "stability_test",
     "stiel_thodos_viscosity",
+    "upper_saturation_pressure",
     "wilson_ln_k",
 ]

@@ -1,6 +1,9 @@
-"""Batch isothermal (PT) flash: stability test, two-phase split, phase properties."""
+"""Batch isothermal (PT) flash: stability test, split into up to three phases, certification of
+the answer, phase properties."""
 
 from __future__ import annotations
+
+import dataclasses
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -9,7 +12,7 @@ from .._errors import InputError
 from . import kernels as _k
 from ._mixture import Mixture
 from ._properties import phase_properties, single_phase_label
-from ._result import FlashResult, FlashStatus, PhaseKind, PhaseLabel
+from ._result import FlashResult, FlashStatus, PhaseKind, PhaseLabel, PhaseProperties
 
 __all__ = ["flash"]
 
@@ -304,7 +307,7 @@ def _flash_arrays(
 
     liquid = phase_properties(mixture, p, t, x, z_liq)
     vapour = phase_properties(mixture, p, t, y, z_vap)
-    second = phase_properties(mixture, p, t, x2, z_liq2)
+    second = _where_three(mixture, p, t, x2, z_liq2, phase_count == 3)
     return FlashResult(
         phase_count=phase_count,
         vapour_fraction=beta,
@@ -329,6 +332,19 @@ def _flash_arrays(
         certification_iterations=cert_iters,
         second_liquid=second,
     )
+
+
+def _where_three(mixture: Mixture, p, t, x2, z_liq2, three) -> PhaseProperties:
+    """Second-liquid properties: computed for the three-phase cells, NaN elsewhere."""
+    if three.all():
+        return phase_properties(mixture, p, t, x2, z_liq2)
+    sub = phase_properties(mixture, p[three], t[three], x2[three], z_liq2[three])
+    out = {}
+    for f in dataclasses.fields(PhaseProperties):
+        full = np.full(p.shape, np.nan)
+        full[three] = getattr(sub, f.name)
+        out[f.name] = full
+    return PhaseProperties(**out)
 
 
 def _trial_gates(mixture: Mixture) -> NDArray[np.float64]:

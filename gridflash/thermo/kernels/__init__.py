@@ -15,6 +15,7 @@ are documented. A cell's arithmetic never depends on the other cells of its batc
 - :mod:`.multiphase` -- split into up to three phases (documented here);
 - :mod:`.flash` -- the whole flash of a batch (``_flash.py``);
 - :mod:`.saturation` -- bubble/dew point by Newton's method (``_saturation.py``);
+- :mod:`.envelope` -- phase-envelope continuation and critical points (documented here);
 - :mod:`.properties` -- phase properties (``_properties.py``).
 """
 

@@ -24,8 +24,18 @@ from .codes import (
 from .eos import phase_cell, pure_ln_phi_cell, reduced_cell, wilson_ln_k_cell
 from .multiphase import multiphase_split_cell
 from .rachford_rice import MAX_PHASES
-from .split import GIBBS_TOL, NEWTON_WM, SPLIT_WS, evaluate_v, newton_cell, split_cell, xlogx
+from .split import (
+    GIBBS_TOL,
+    NEWTON_WM,
+    SPLIT_WS,
+    evaluate_v,
+    from_lnk,
+    newton_cell,
+    split_cell,
+    xlogx,
+)
 from .stability import (
+    EXTENDED_WS,
     NEAR_PURE_REST,
     NEAR_PURE_WS,
     STAB_MAXITER,
@@ -42,7 +52,7 @@ _NAN = math.nan
 _INF = math.inf
 
 # Scratch sizes (rows of nc, and (nc, nc) matrices).
-FLASH_WS = max(STABILITY_WS, SPLIT_WS, NEAR_PURE_WS)
+FLASH_WS = max(STABILITY_WS, SPLIT_WS, EXTENDED_WS)
 FLASH_WM = max(TRIAL_WM, NEWTON_WM)
 
 
@@ -124,9 +134,10 @@ def extended_test(
     ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm
 ):
     """The pure-component corner screen, then near-pure trial phases, of the reference phase
-    ``ref``; returns (lowest tm, iterations). The lowest-tm composition is in ``w_out``."""
+    ``ref``; returns (lowest tm, iterations). The lowest-tm composition is in ``w_out``.
+    ``ws``: EXTENDED_WS rows of nc."""
     nc = ref.shape[0]
-    corner = np.empty(nc)
+    corner = ws[NEAR_PURE_WS]
     low, which = corner_screen(ref, present, ln_phi_ref, ln_phi_pure, corner)
     tm, iters, _ = near_pure_trials(
         ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, gate, w_out, ws, wm
@@ -145,9 +156,8 @@ def extended_test(
 def certify_phases(comp, present, sqrt_a, b_i, omk, d1, d2, ln_phi_pure, gate, w_out, ws, wm):
     """Stability test of a converged answer, with its first phase as the reference (at
     equilibrium every phase has the same tangent plane); returns (lowest tm, iterations)."""
-    nc = comp.shape[1]
-    ln_phi = np.empty(nc)
-    psi = np.empty(nc)
+    ln_phi = ws[NEAR_PURE_WS + 1]
+    psi = ws[NEAR_PURE_WS + 2]
     zr, _, _ = phase_cell(comp[0], sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, ln_phi, psi)
     if not math.isfinite(zr):
         return _NAN, 0
@@ -356,6 +366,24 @@ def flash_batch(
             if st == CONVERGED and 0.0 < bt < 1.0:
                 n_phase = 2
                 from_split = True
+            elif certify:
+                # The split in vapour mole numbers loses precision where one phase holds almost
+                # none of a component (water and oil); the multiphase substitution, which
+                # computes each phase's composition directly, starts from the warm K-values.
+                bt0, rr_ok = from_lnk(zc, present, lnk0, comp[0], comp[1], ws)
+                fr[0] = 1.0 - bt0
+                fr[1] = bt0
+                st_m, n_new, it_m, res_m, bal_m, g_m = ROOT_FAILURE, 0, 0, _NAN, _NAN, _NAN
+                if rr_ok and 0.0 < bt0 < 1.0:
+                    st_m, n_new, it_m, res_m, bal_m, g_m = multiphase_split_cell(
+                        zc, present, sqrt_a, b_i, omk, d1, d2, 2, comp, fr
+                    )
+                iterations[c] += it_m
+                if st_m == CONVERGED and n_new > 1:
+                    n_phase = n_new
+                    residual[c] = res_m
+                    balance[c] = bal_m
+                    g = g_m
         if n_phase == 0:
             if not wilson_ready:
                 for i in range(nc):

@@ -153,6 +153,12 @@ def multiphase_split_cell(z, present, sqrt_a, b_i, omk, d1, d2, n_phase, comp, b
         if not ok:
             return ROOT_FAILURE, n_phase, iters, _NAN, _NAN, _NAN
         if n_phase > 1 and res < TOL_RESIDUAL:
+            merged = merge_same(comp, beta, n_phase, present)
+            if merged == 1:
+                return TRIVIAL_SOLUTION, 1, iters, 0.0, 0.0, _NAN
+            if merged < n_phase:
+                n_phase = merged
+                continue
             bal = balance_of(z, comp, beta, n_phase)
             if bal < TOL_BALANCE:
                 return (
@@ -188,10 +194,13 @@ def multiphase_split_cell(z, present, sqrt_a, b_i, omk, d1, d2, n_phase, comp, b
         n_phase = merge_same(comp, beta, n_phase, present)
         if n_phase == 1:
             return TRIVIAL_SOLUTION, 1, iters, 0.0, 0.0, _NAN
-    status, n_phase, n_it, res, bal, g = multiphase_newton_cell(
+    status, n_new, n_it, res, bal, g = multiphase_newton_cell(
         z, present, sqrt_a, b_i, omk, d1, d2, n_phase, comp, beta
     )
-    return status, n_phase, iters + n_it, res, bal, g
+    if status == CONVERGED and merge_same(comp, beta, n_new, present) < n_new:
+        # Two phases met: the answer has fewer phases; the caller splits again.
+        status = TRIVIAL_SOLUTION
+    return status, n_new, iters + n_it, res, bal, g
 
 
 @kernel

@@ -132,7 +132,7 @@ def _evaluate(
 
 
 @kernel
-def _from_lnk(z, present, ln_k, x, y, ws):
+def from_lnk(z, present, ln_k, x, y, ws):
     """Rachford-Rice split for ln K; returns (beta, rr_ok). ``ws``: 2 rows of scratch."""
     nc = z.shape[0]
     k = ws[0]
@@ -165,7 +165,7 @@ def _evaluate_lnk(
 ):
     """Rachford-Rice split for ln K, then the EOS; returns (beta, inside, z_l, z_v, residual,
     gibbs), ``inside`` meaning Rachford-Rice converged with 0 < beta < 1."""
-    beta, rr_ok = _from_lnk(z, present, lnk, x, y, ws)
+    beta, rr_ok = from_lnk(z, present, lnk, x, y, ws)
     zl, zv, res, gibbs, _, _, _, _ = _evaluate(
         z,
         present,
@@ -255,7 +255,7 @@ def split_cell(z, present, sqrt_a, b_i, omk, d1, d2, ln_k0, warm, o_x, o_y, o_ln
         # the same start, one EOS evaluation of the split fewer. A start whose residual is not
         # between TOL_RESIDUAL and WARM_SWITCH_RESIDUAL (Newton returns no iterations) goes the
         # substitution's way, as before.
-        beta, inside = _from_lnk(z, present, lnk, x, y, sub)
+        beta, inside = from_lnk(z, present, lnk, x, y, sub)
         maxlnk = 0.0
         for i in range(nc):
             if present[i]:

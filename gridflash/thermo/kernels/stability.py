@@ -327,6 +327,7 @@ WATER_GATE = 5.0  # ... or below this in a mixture that contains water
 NEAR_PURE_REST = 1e-3  # the other components' share of a near-pure start (in the feed's ratios)
 TRIAL_STATIONARY = 1e-7  # stationarity of a near-pure trial that ends at tm >= TM_CERTIFY
 NEAR_PURE_WS = 2 + TRIAL_WS
+EXTENDED_WS = 3 + NEAR_PURE_WS  # with the corner tm and a phase's ln phi and psi
 
 
 @kernel
@@ -356,7 +357,8 @@ def near_pure_trials(
     ref, present, ln_phi_ref, sqrt_a, b_i, omk, d1, d2, corner, gate, w_out, ws, wm
 ):
     """Trial phases started near each pure component whose corner tm is below its ``gate``
-    (nc,), in increasing order of that tm, until one reaches tm < TM_CERTIFY.
+    (nc,), in increasing order of that tm, until one reaches tm < TM_CERTIFY. The corners
+    tried are set to +inf in ``corner``.
 
     Returns (lowest tm, iterations, tried): the composition of the lowest-tm trial is written
     into ``w_out`` (NaN if none was tried). ``ws``: NEAR_PURE_WS rows of nc; ``wm``: TRIAL_WM
@@ -371,16 +373,15 @@ def near_pure_trials(
     tried = 0
     for i in range(nc):
         w_out[i] = _NAN
-    done = np.zeros(nc, dtype=np.bool_)
     while True:
         pick = -1
         for i in range(nc):
-            if present[i] and not done[i] and corner[i] < gate[i]:
+            if present[i] and corner[i] < gate[i]:
                 if pick < 0 or corner[i] < corner[pick]:
                     pick = i
         if pick < 0:
             break
-        done[pick] = True
+        corner[pick] = _INF  # tried
         tried += 1
         for j in range(nc):
             share = 1.0 - NEAR_PURE_REST if j == pick else NEAR_PURE_REST * ref[j]
