@@ -49,6 +49,7 @@ from .store import (
     write_line_variables,
     writer_lock,
 )
+from .thermo import flash
 
 __all__ = [
     "DEFAULT_MAX_CELLS",
@@ -314,6 +315,7 @@ def _run_locked(
         else contextlib.nullcontext(None)
     )
     with connection as client:
+        loading = _load_on_workers(client, spec) if todo else []
         if fresh:
             remove_store(path)
             create_store(path, spec, plan)
@@ -322,6 +324,7 @@ def _run_locked(
             set_run_state(path, "running", run_sessions=sessions + 1)
         if todo:
             threads = _check_workers(client, path, address)
+            _wait_loaded(loading)
             t0 = time.perf_counter()
             computed = _drain(client, spec, path, plan, todo, threads, progress)
             compute_seconds = time.perf_counter() - t0
@@ -521,6 +524,34 @@ def _check_workers(client, path: Path, address: str | None) -> int:
             )
     info = client.scheduler_info(n_workers=-1)
     return max(1, sum(w.get("nthreads", 1) for w in info.get("workers", {}).values()))
+
+
+def _load_kernels(spec: RunSpec) -> None:
+    """Flash one cell of the run's fluid: imports the block code and loads the compiled
+    kernels from the disk cache in the calling process (a worker), as its first block would."""
+    nc = len(spec.fluid.components)
+    flash(spec.fluid.mixture(), 1e6, 300.0, np.full(nc, 1.0 / nc))
+
+
+def _load_on_workers(client, spec: RunSpec) -> list:
+    """Start :func:`_load_kernels` on every worker process known now (futures), so that it
+    overlaps the store's creation instead of delaying the first blocks of each process (a new
+    worker process spends about a second importing and loading, several on a busy machine)."""
+    workers = client.scheduler_info(n_workers=-1).get("workers", {})
+    session = uuid.uuid4().hex[:8]
+    return [
+        client.submit(_load_kernels, spec, workers=[address], allow_other_workers=False,
+                      pure=False, key=f"gridflash-load-{session}-{k}")
+        for k, address in enumerate(workers)
+    ]
+
+
+def _wait_loaded(loading: list) -> None:
+    """Wait for :func:`_load_on_workers` (a failure is left to the blocks to report)."""
+    deadline = time.monotonic() + _WORKER_TIMEOUT
+    for future in loading:
+        with contextlib.suppress(Exception):  # the future's own error, or the deadline
+            future.exception(timeout=max(0.0, deadline - time.monotonic()))
 
 
 def _sees_store(path: str) -> bool:

@@ -136,6 +136,40 @@ def test_warm_start_from_wrong_side_of_a_phase_boundary_falls_back(oil_gas_mixtu
     assert high.converged[0]
 
 
+def test_cells_sharing_pressure_and_temperature_flash_as_alone(oil_gas_mixture):
+    # The kernel keeps what depends on P and T only (reduced EOS parameters, pure-component
+    # ln phi, Wilson K-values) from one cell to the next where both are equal: every cell of a
+    # batch must still get exactly the answer of a flash of that cell alone, also where the
+    # conditions change back and forth.
+    mix = oil_gas_mixture
+    z = mixing_line(np.linspace(0.0, 1.0, 7))
+    p = np.array([8e6, 8e6, 8e6, 30e6, 8e6, 8e6, 8e6])
+    t = np.array([350.0, 350.0, 350.0, 350.0, 350.0, 400.0, 400.0])
+    batch = flash(mix, p, t, z)
+    assert set(batch.phase_count.tolist()) == {1, 2}
+    for c in range(len(p)):
+        alone = flash(mix, p[c], t[c], z[c])
+        for name in ("phase_count", "status", "vapour_fraction", "x", "y", "iterations"):
+            np.testing.assert_array_equal(getattr(batch, name)[c], getattr(alone, name)[0])
+
+
+def test_warm_start_far_from_equilibrium_gives_the_cold_answer(oil_gas_mixture):
+    # A warm split goes straight to Newton from the Rachford-Rice split of the given K-values
+    # only where their residual is below the substitution's hand-over threshold; K-values far
+    # off (ln K tripled) are refused and solved as before, giving the cold answer.
+    mix = oil_gas_mixture
+    z = mixing_line(np.linspace(0.0, 0.6, 4))
+    p = np.full(4, 10e6)
+    t = np.full(4, 350.0)
+    cold = flash(mix, p, t, z)
+    assert (cold.phase_count == 2).all()
+    for k_init in (cold.K**3, cold.K * 1.05):
+        warm = flash(mix, p, t, z, k_init=k_init)
+        np.testing.assert_array_equal(warm.phase_count, cold.phase_count)
+        np.testing.assert_allclose(warm.vapour_fraction, cold.vapour_fraction, atol=1e-8)
+        assert warm.converged.all()
+
+
 CASES = [
     # (components, kij pairs, z, P [Pa], T [K]) - invented test mixtures
     (("C1", "nC4"), {}, [0.5, 0.5], 5e6, 300.0),

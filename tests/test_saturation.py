@@ -53,3 +53,45 @@ def test_invalid_brackets_give_nan():
         mix, np.array([250.0]), np.array([[0.2, 0.8]]), np.array([1e7]), np.array([2e7])
     )  # both one-phase
     assert np.isnan(p[0]) and kind[0] == 0
+
+
+@pytest.mark.parametrize(
+    ("t", "z", "p_two", "p_one"),
+    [
+        (250.0, [0.2, 0.8], 2e6, 3e6),  # bubble point, C1-C3 (the binary above)
+        (250.0, [0.2, 0.8], 3e5, 2e5),  # dew point
+        (300.0, [0.5, 0.5], 3e6, 1e6),  # a wide bracket: bisection before Newton
+    ],
+)
+def test_known_brackets_give_the_same_answer_without_the_check_flash(
+    t, z, p_two, p_one, monkeypatch
+):
+    # The caller's knowledge (e.g. a table's flash at neighbouring grid pressures) replaces the
+    # two check flashes; the answer is bit for bit the one of the checked call.
+    import gridflash.thermo._flash as flash_module
+
+    flashed = []
+
+    def counting(*args, **kwargs):
+        result = flash(*args, **kwargs)
+        flashed[-1] += result.phase_count.size
+        return result
+
+    monkeypatch.setattr(flash_module, "flash", counting)
+    mix = Mixture(["C1", "C3"])
+    args = (mix, np.array([t]), np.array([z]), np.array([p_two]), np.array([p_one]))
+    flashed.append(0)
+    checked = saturation_pressure(*args)
+    flashed.append(0)
+    known = saturation_pressure(*args, brackets_known=np.array([True]))
+    assert flashed[1] == flashed[0] - 2
+    assert checked[1][0] in (1, 2)
+    for a, b in zip(checked, known, strict=True):
+        np.testing.assert_array_equal(a, b)
+
+
+def test_brackets_known_must_match_the_cells():
+    mix = Mixture(["C1", "C3"])
+    with pytest.raises(ValueError, match="brackets_known"):
+        saturation_pressure(mix, np.array([250.0]), np.array([[0.2, 0.8]]), np.array([2e6]),
+                            np.array([3e6]), brackets_known=np.array([True, False]))

@@ -137,10 +137,14 @@ def saturation_lines(
     pressure = np.asarray(table.pressure.values, dtype=float)
     temperature = np.asarray(table.temperature.values, dtype=float)
     count = np.asarray(table.phase_count.transpose(*dims).values)
+    # Without the stored convergence flags every bracket is flashed again.
+    converged = (np.asarray(table.converged.transpose(*dims).values, dtype=bool)
+                 if "converged" in table.data_vars else np.zeros(count.shape, dtype=bool))
     feeds = np.asarray(table.feed_composition.transpose(comp_dim, "component").values, float)
     feeds = feeds / feeds.sum(axis=1, keepdims=True)
     n_p, n_t, n_c = count.shape
     lines = count.reshape(n_p, n_t * n_c)
+    line_converged = converged.reshape(n_p, n_t * n_c)
     t_line = np.repeat(temperature, n_c)
     z_line = np.tile(feeds, (n_t, 1))
     pure_comp = np.sum(feeds > 0.0, axis=1) == 1
@@ -169,9 +173,15 @@ def saturation_lines(
         np.where(pure[up_idx], pressure[-1], pressure[np.minimum(k_up[up_idx] + 1, n_p - 1)]),
         pressure[np.maximum(k_lo[lo_idx] - 1, 0)]])
     idx = np.concatenate([up_idx, lo_idx])
+    # The table's own flash gave these brackets: two phases inside, one outside (see up_ok and
+    # lo_ok); where both ends converged they need no second flash.
+    k_in = np.concatenate([k_up[up_idx], k_lo[lo_idx]])
+    k_out = np.concatenate([np.minimum(k_up[up_idx] + 1, n_p - 1), np.maximum(k_lo[lo_idx] - 1, 0)])
+    known = np.concatenate([up_ok[up_idx], lo_ok[lo_idx]])
+    known &= line_converged[k_in, idx] & line_converged[k_out, idx]
     if idx.size:
         p_sat, kind = _saturation_threads(
-            mixture, t_line[idx], z_line[idx], inside, outside, threads
+            mixture, t_line[idx], z_line[idx], inside, outside, threads, known
         )
         n_up = up_idx.size
         upper_p[up_idx], upper_kind[up_idx] = p_sat[:n_up], kind[:n_up]
@@ -306,12 +316,14 @@ def _saturation_at(
     return np.where(kind > 0, p_sat, np.nan)
 
 
-def _saturation_threads(mixture, temperature, z, p_two, p_one, threads):
+def _saturation_threads(mixture, temperature, z, p_two, p_one, threads, known=None):
     """:func:`saturation_pressure` in ``threads`` threads (default one per core), on slices of
     at most ``_MAX_LINES_PER_CALL`` lines (the compiled flash releases the GIL), so memory is
     bounded by the slice, not by the table. Each line's answer is independent of the others, so
-    the result is the same as one call."""
+    the result is the same as one call. ``known``: brackets the table's flash already gave
+    (``brackets_known``)."""
     n = temperature.shape[0]
+    known = np.zeros(n, dtype=bool) if known is None else known
     parts = min(threads or os.cpu_count() or 1, max(1, n // _MIN_LINES_PER_THREAD))
     pieces = max(parts, -(-n // _MAX_LINES_PER_CALL))
     bounds = np.linspace(0, n, pieces + 1).astype(int)
@@ -319,7 +331,7 @@ def _saturation_threads(mixture, temperature, z, p_two, p_one, threads):
 
     def solve(s: slice):
         return saturation_pressure(mixture, temperature[s], z[s], p_two[s], p_one[s],
-                                   rtol=_RTOL)[:2]
+                                   rtol=_RTOL, brackets_known=known[s])[:2]
 
     if parts <= 1:
         out = [solve(s) for s in slices]

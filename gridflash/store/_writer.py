@@ -57,8 +57,15 @@ __all__ = [
 ]
 
 
-# Zarr's own concurrency, limited because several tasks may write at once in one process.
-_ZARR_CONFIG = {"async.concurrency": 4, "threading.max_workers": 4}
+# Zarr's own concurrency, limited because several tasks may write at once in one process; every
+# chunk written, also one equal to the fill value: completion is the ``block_complete`` mark, not
+# the presence of a chunk, and comparing each chunk with the fill value first cost about a fifth
+# of the write time of a 28,900-cell block (49.6 -> 39.3 ms, median of 9).
+_ZARR_CONFIG = {
+    "async.concurrency": 4,
+    "threading.max_workers": 4,
+    "array.write_empty_chunks": True,
+}
 
 
 # --------------------------------------------------------------------------------------------

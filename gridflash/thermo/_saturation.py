@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from .._errors import InputError
 from ._cubic import CubicModel, R, cubic_roots
 
 __all__ = ["pure_vapour_pressure", "saturation_pressure"]
@@ -81,7 +82,8 @@ def pure_vapour_pressure(
 
 
 def saturation_pressure(
-    mixture, temperature, z, p_two_phase, p_one_phase, *, rtol=1e-10, maxiter=80
+    mixture, temperature, z, p_two_phase, p_one_phase, *, rtol=1e-10, maxiter=80,
+    brackets_known=None,
 ):
     """Bubble- or dew-point pressure of each feed between a two-phase and a one-phase pressure.
 
@@ -105,6 +107,11 @@ def saturation_pressure(
         Pressures (Pa) at which the flash finds two phases and one phase respectively.
     rtol : float
         Relative width of the final bracket where bisection has to finish the job.
+    brackets_known : ndarray of bool, shape (n,), optional
+        True where the caller already knows that the flash converges to two phases at
+        ``p_two_phase`` and to one phase at ``p_one_phase`` (e.g. neighbouring grid cells of a
+        table this flash computed); those brackets are not flashed again. Default: every
+        bracket is checked. Single-component feeds are never flashed for the check.
 
     Returns
     -------
@@ -124,11 +131,17 @@ def saturation_pressure(
     lo = np.log(np.asarray(p_two_phase, dtype=float))  # inside (two-phase) end
     hi = np.log(np.asarray(p_one_phase, dtype=float))  # outside (one-phase) end
     n = t.shape[0]
-    check = flash(
-        mixture, np.exp(np.concatenate([lo, hi])), np.concatenate([t, t]), np.concatenate([zz, zz])
-    )
-    valid = (check.phase_count[:n] == 2) & (check.phase_count[n:] == 1)
-    valid &= check.converged[:n] & check.converged[n:] & (np.sum(zz > 0.0, axis=1) > 1)
+    valid = np.sum(zz > 0.0, axis=1) > 1
+    known = np.zeros(n, dtype=bool) if brackets_known is None else np.asarray(brackets_known)
+    if known.shape != (n,):
+        raise InputError(f"brackets_known has shape {known.shape}, expected ({n},)")
+    idx = np.flatnonzero(valid & ~known)
+    if idx.size:
+        m_ = idx.size
+        check = flash(mixture, np.exp(np.concatenate([lo[idx], hi[idx]])),
+                      np.concatenate([t[idx], t[idx]]), np.concatenate([zz[idx], zz[idx]]))
+        valid[idx] = (check.phase_count[:m_] == 2) & (check.phase_count[m_:] == 1)
+        valid[idx] &= check.converged[:m_] & check.converged[m_:]
 
     def bisect(until):
         for _ in range(maxiter):

@@ -124,7 +124,7 @@ def _gibbs_descent_cell(
                 best_g = g
             first = False
     status, beta, zl, zv, n_it, res, bal, gibbs = newton_cell(
-        z, present, sqrt_a, b_i, omk, d1, d2, best_v, True, o_x, o_y, o_lnk, ws, wm
+        z, present, sqrt_a, b_i, omk, d1, d2, best_v, True, o_x, o_y, o_lnk, ws, wm, 0.0, _INF
     )
     return status, beta, zl, zv, n_it + st_it, res, bal, gibbs
 
@@ -263,7 +263,6 @@ def flash_batch(
     present = np.empty(nc, dtype=np.bool_)
     lnphi_z = np.empty(nc)
     lnphi_pure = np.empty(nc)
-    pure_pt = np.full(2, _NAN)  # the P and T lnphi_pure belongs to
     psi = np.empty(nc)
     ln_kw = np.empty(nc)
     lnk0 = np.empty(nc)
@@ -281,9 +280,17 @@ def flash_batch(
     ws = np.empty((FLASH_WS, nc))
     wm = np.empty((FLASH_WM, nc, nc))
     out = (x, y, x2, beta, beta2, ln_k, z_liq, z_vap, z_liq2)
+    # What depends on P and T only -- sqrt(A_i), B_i, the pure components' ln phi, Wilson's
+    # K-values -- is kept from the previous cell where that cell had the same P and T (a grid's
+    # cells along the composition axis): the same numbers as computing them again.
+    pure_ready = False
+    wilson_ready = False
     for c in range(n):
         zc = z[c]
-        reduced_cell(ac, m, b, tc, p[c], t[c], sqrt_a, b_i)
+        if c == 0 or not (p[c] == p[c - 1] and t[c] == t[c - 1]):
+            reduced_cell(ac, m, b, tc, p[c], t[c], sqrt_a, b_i)
+            pure_ready = False
+            wilson_ready = False
         for i in range(nc):
             present[i] = zc[i] > 0.0
         zf, _, _ = phase_cell(zc, sqrt_a, b_i, omk, d1, d2, ROOT_MIN_GIBBS, lnphi_z, psi)
@@ -313,11 +320,9 @@ def flash_batch(
         if not feed_ok:
             status[c] = ROOT_FAILURE
             continue
-        if certify and not (p[c] == pure_pt[0] and t[c] == pure_pt[1]):
-            # (neighbouring cells of a grid often share P and T: the pure values then too)
+        if certify and not pure_ready:
             pure_ln_phi_cell(sqrt_a, b_i, omk, d1, d2, lnphi_pure)
-            pure_pt[0] = p[c]
-            pure_pt[1] = t[c]
+            pure_ready = True
         st, bt, zl, zv, res, bal, g = CONVERGED, _NAN, _NAN, _NAN, _NAN, _NAN, _NAN
         n_phase = 0  # phases of a converged answer held in comp / fr (0: none yet)
         from_split = False  # the answer is the two-phase split's (sx, sy, slnk)
@@ -380,8 +385,10 @@ def flash_batch(
                     balance[c] = bal_m
                     g = g_m
         if n_phase == 0:
-            for i in range(nc):
-                ln_kw[i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p[c], t[c])
+            if not wilson_ready:
+                for i in range(nc):
+                    ln_kw[i] = wilson_ln_k_cell(pc[i], tc[i], omega[i], p[c], t[c])
+                wilson_ready = True
             stable, tpd_c, st_it, conclusive, root_failure = stability_cell(
                 zc,
                 present,
