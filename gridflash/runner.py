@@ -650,15 +650,10 @@ def saturation_step(
     import xarray as xr
 
     store = str(path)
-    ds = open_unconsolidated(store)
-    try:
-        dims = tuple(ds.phase_count.dims)
-        if dims[:2] != ("pressure", "temperature"):
-            return None
-        comp_dim = dims[2]
-        n_comp = ds.sizes[comp_dim]
-    finally:
-        ds.close()
+    grid = _composition_axis(store)
+    if grid is None:
+        return None
+    comp_dim, n_comp = grid
     if compute_parts is None:
         parts = [saturation_lines_part(store, 0, 1, threads)]
     else:
@@ -671,6 +666,18 @@ def saturation_step(
     return lines
 
 
+def _composition_axis(store: str) -> tuple[str, int] | None:
+    """Name and length of a grid store's composition dimension; None for a sampled store."""
+    ds = open_unconsolidated(store)
+    try:
+        dims = tuple(ds.phase_count.dims)
+        if dims[:2] != ("pressure", "temperature"):
+            return None
+        return dims[2], ds.sizes[dims[2]]
+    finally:
+        ds.close()
+
+
 def envelope_step(path: str | os.PathLike[str], *, client=None, chunk: int | None = None):
     """The run's post-step for envelopes: the traced phase envelope of every composition of a
     grid store (:func:`gridflash.analysis.composition_envelopes`), written into it.
@@ -681,15 +688,10 @@ def envelope_step(path: str | os.PathLike[str], *, client=None, chunk: int | Non
     answer does not depend on the chunks.
     """
     store = str(path)
-    ds = open_unconsolidated(store)
-    try:
-        dims = tuple(ds.phase_count.dims)
-        if dims[:2] != ("pressure", "temperature"):
-            return None
-        comp_dim = dims[2]
-        n_comp = ds.sizes[comp_dim]
-    finally:
-        ds.close()
+    grid = _composition_axis(store)
+    if grid is None:
+        return None
+    comp_dim, n_comp = grid
     step = max(1, chunk or n_comp)
     ranges = [(a, min(a + step, n_comp)) for a in range(0, n_comp, step)]
     if client is None:
